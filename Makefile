@@ -1,0 +1,24 @@
+# Set-up and everyday commands. Only Python 3.11+ and make are needed.
+PYTHON ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+# The demo records tell a story set on this date, so the demo shows every state.
+DEMO_AS_OF ?= 2026-12-01
+
+.PHONY: demo test clean
+
+$(BIN)/recordkit: pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+	$(BIN)/python -m pip install --quiet -e '.[test]'
+	touch $@
+
+demo: $(BIN)/recordkit  ## show the demo records' status
+	$(BIN)/recordkit check records --as-of $(DEMO_AS_OF)
+	-$(BIN)/recordkit status records --as-of $(DEMO_AS_OF)
+
+test: $(BIN)/recordkit  ## run the whole test suite
+	$(BIN)/python -m pytest
+
+clean:
+	rm -rf $(VENV) site .pytest_cache

@@ -1,0 +1,110 @@
+"""The command line: a thin face over the library. The only module that imports click,
+and the only place that reads the clock (for the default as-of date)."""
+from __future__ import annotations
+
+import json
+import sys
+from datetime import date
+
+import click
+
+from .checks import evaluate
+from .loader import Loaded, load_records
+from .schedule import State
+from .status import status_json, status_text
+
+EXIT_OK, EXIT_ERRORS, EXIT_OVERDUE = 0, 1, 3
+
+records_argument = click.argument("records_dir", default="records", metavar="[RECORDS_DIR]",
+                                  type=click.Path(file_okay=False, path_type=str))
+as_of_option = click.option(
+    "--as-of", "as_of", type=click.DateTime(formats=["%Y-%m-%d"]), default=None, metavar="YYYY-MM-DD",
+    help="Judge the records as of this date (default: today). Events dated after it are refused.")
+
+
+def _as_of(value) -> date:
+    return value.date() if value else date.today()
+
+
+def _load(records_dir: str, as_of: date) -> Loaded:
+    loaded = load_records(records_dir, as_of)
+    for problem in loaded.problems:
+        click.echo(str(problem), err=True)
+    if loaded.problems:
+        files = {p.source.path for p in loaded.problems}
+        click.echo(f"{len(loaded.problems)} problem(s) in {len(files)} file(s); fix them and run again.",
+                   err=True)
+    return loaded
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(package_name="recordkit")
+def main() -> None:
+    """Keep maintenance and test records of smoke, CO and heat alarms and listening
+    nodes, and see what is overdue. Records are YAML files under RECORDS_DIR
+    (default: records). The local fire code and the AHJ decide; this is a
+    record-keeping aid, not an inspection."""
+
+
+@main.command()
+@records_argument
+@as_of_option
+def check(records_dir: str, as_of) -> None:
+    """Validate the record files: print each problem as file:line: message.
+
+    Exit status 0 when the records are sound, 1 when there are problems."""
+    day = _as_of(as_of)
+    loaded = _load(records_dir, day)
+    if loaded.problems:
+        sys.exit(EXIT_ERRORS)
+    portfolio = loaded.portfolio
+    units = sum(len(p.units) for p in portfolio.properties)
+    click.echo(f"{records_dir}: {len(loaded.files)} files, {len(portfolio.properties)} properties, "
+               f"{units} units, {len(portfolio.devices)} devices, {len(portfolio.events)} events; "
+               "no problems.")
+
+
+@main.command()
+@records_argument
+@as_of_option
+@click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text", show_default=True,
+              help="text for people (80 columns), json for scripts.")
+@click.option("--all", "show_ok", is_flag=True, help="Also list tasks that are not yet due (text format).")
+def status(records_dir: str, as_of, fmt: str, show_ok: bool) -> None:
+    """Show what is overdue and due soon, and why, with the rule and its source.
+
+    Exit status: 0 nothing overdue, 3 something overdue, 1 the records have
+    problems (then nothing is reported as trusted). Suits a cron job."""
+    day = _as_of(as_of)
+    loaded = _load(records_dir, day)
+    if loaded.problems:
+        if fmt == "json":
+            errors = [{"file": p.source.path, "line": p.source.line, "message": p.message}
+                      for p in loaded.problems]
+            click.echo(json.dumps({"as_of": day.isoformat(), "records": records_dir, "errors": errors,
+                                   "items": []}, indent=1))
+        sys.exit(EXIT_ERRORS)
+    findings = evaluate(loaded.portfolio, loaded.policy, day)
+    if fmt == "json":
+        click.echo(json.dumps(status_json(findings, day, records_dir), indent=1, ensure_ascii=False))
+    else:
+        click.echo(status_text(findings, loaded.portfolio, day, show_ok), nl=False)
+    sys.exit(EXIT_OVERDUE if any(f.state is State.OVERDUE for f in findings) else EXIT_OK)
+
+
+@main.command()
+@records_argument
+@as_of_option
+def rules(records_dir: str, as_of) -> None:
+    """List every rule in force: value, source, and whether policy.yaml set it."""
+    loaded = _load(records_dir, _as_of(as_of))
+    if loaded.problems:
+        sys.exit(EXIT_ERRORS)
+    for rule in loaded.policy:
+        where = f"local, {rule.defined_at}" if rule.local else "default"
+        click.echo(f"{rule.name}: {rule.value}  [{where}]")
+        click.echo(f"    {rule.title}. Source: {rule.source}")
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

@@ -1,0 +1,287 @@
+"""Record files -> model, with every problem collected as file:line data.
+
+Any number of `*.yaml` files anywhere under the records folder; each may hold a
+`property:` mapping, an `events:` list, or both. `policy.yaml` at the root holds
+local rule overrides. Nothing here raises for bad input: problems are returned.
+"""
+from __future__ import annotations
+
+import difflib
+import os
+from dataclasses import dataclass, field
+from datetime import date, datetime, timezone
+from pathlib import Path
+from typing import Any
+
+from . import model as m
+from .errors import Problem, Problems, Source
+from .fields import Fields
+from .rules import Policy, apply_policy_file
+from .yamltree import read_yaml
+
+POLICY_FILE = "policy.yaml"
+RECORD_SUFFIXES = (".yaml", ".yml")
+
+
+@dataclass
+class Loaded:
+    """The result of loading a records folder. Trust `portfolio` only when `problems` is empty."""
+
+    root: str
+    portfolio: m.Portfolio
+    policy: Policy
+    problems: list[Problem]
+    files: list[str] = field(default_factory=list)
+    last_changed: datetime | None = None  # newest record file's modification time (UTC)
+
+    @property
+    def ok(self) -> bool:
+        return not self.problems
+
+
+def record_files(root: Path, problems: Problems) -> list[Path]:
+    """Record files under root, sorted; hidden folders skipped; links leaving root refused."""
+    found: list[Path] = []
+    real_root = root.resolve()
+    for folder, dirs, files in os.walk(root, followlinks=False):
+        dirs[:] = sorted(d for d in dirs if not d.startswith("."))
+        for name in sorted(files):
+            if name.startswith(".") or not name.endswith(RECORD_SUFFIXES):
+                continue
+            path = Path(folder) / name
+            if not path.resolve().is_relative_to(real_root):
+                problems.add(Source(str(path), 0), "links outside the records folder; refused "
+                             "(copy the file into the folder instead)")
+                continue
+            found.append(path)
+    return found
+
+
+def load_records(root: str | Path, as_of: date) -> Loaded:
+    """Load and validate every record under `root` as of a date (events after it are refused)."""
+    root = Path(root)
+    problems = Problems()
+    if not root.is_dir():
+        problems.add(Source(str(root), 0), "records folder not found")
+        return Loaded(str(root), m.Portfolio(), Policy(), problems)
+    policy = Policy()
+    builder = _Builder(problems)
+    paths = record_files(root, problems)
+    newest = 0.0
+    for path in paths:
+        shown = str(path)
+        try:
+            data = path.read_bytes()
+            newest = max(newest, path.stat().st_mtime)
+        except OSError as exc:
+            problems.add(Source(shown, 0), f"cannot read: {exc.strerror or exc}")
+            continue
+        tree = read_yaml(data, shown, problems)
+        if path.parent == root and path.name == POLICY_FILE:
+            policy = apply_policy_file(tree, shown, problems, policy)
+        elif tree is None and not data.strip():
+            problems.add(Source(shown, 1), "file is empty; expected 'property:' and/or 'events:'")
+        elif tree is not None:
+            builder.add_file(tree, shown)
+    portfolio = builder.finish(as_of)
+    last = datetime.fromtimestamp(newest, timezone.utc) if newest else None
+    return Loaded(str(root), portfolio, policy, problems.sorted(), [str(p) for p in paths], last)
+
+
+class _Builder:
+    def __init__(self, problems: Problems):
+        self.problems = problems
+        self.properties: list[m.Property] = []
+        self.events: list[m.Event] = []
+        self.property_sources: dict[str, Source] = {}
+
+    # ---- files -------------------------------------------------------------------------
+    def add_file(self, tree: Any, path: str) -> None:
+        top = Fields(tree, path, self.problems, "file")
+        if not top.ok:
+            return
+        if "property" not in top.map and "events" not in top.map:
+            top.error(None, "expected 'property:' and/or 'events:' at the top level")
+        if "property" in top.map:
+            prop = self._property(top.raw("property"), path, top.map.line_of("property"))
+            if prop:
+                first = self.property_sources.get(prop.id)
+                if first:
+                    self.problems.add(prop.source, f"property: duplicate id '{prop.id}' (first at {first})")
+                else:
+                    self.property_sources[prop.id] = prop.source
+                    self.properties.append(prop)
+        for item, line in top.items("events"):
+            event = self._event(item, path, line)
+            if event:
+                self.events.append(event)
+        top.finish()
+
+    # ---- properties, units, rooms, devices ----------------------------------------------
+    def _property(self, tree: Any, path: str, line: int) -> m.Property | None:
+        f = Fields(tree, path, self.problems, "property", line)
+        if not f.ok:
+            return None
+        pid = f.ident()
+        name = f.text("name", required=True)
+        address = f.text("address")
+        units = self._unique(
+            [self._unit(item, path, ln, pid) for item, ln in f.items("units", required=True)], "unit")
+        f.finish()
+        return m.Property(pid, name, f.source(), address, tuple(units)) if pid else None
+
+    def _unit(self, tree: Any, path: str, line: int, pid: str) -> m.Unit | None:
+        f = Fields(tree, path, self.problems, "unit", line)
+        if not f.ok:
+            return None
+        uid = f.ident()
+        f.what = f"unit '{uid}'"
+        name = f.text("name", default=uid)
+        rooms = self._unique([self._room(item, path, ln) for item, ln in f.items("rooms", required=True)], "room")
+        room_ids = {r.id for r in rooms}
+        devices = self._unique(
+            [self._device(item, path, ln, f"{pid}/{uid}", room_ids) for item, ln in f.items("devices")], "device")
+        unit = m.Unit(uid, f"{pid}/{uid}", name, f.source(), tuple(rooms), tuple(devices),
+                      attached_garage=f.flag("attached_garage"),
+                      interconnect_required=f.flag("interconnect_required"))
+        f.finish()
+        return unit if uid else None
+
+    def _room(self, tree: Any, path: str, line: int) -> m.Room | None:
+        f = Fields(tree, path, self.problems, "room", line)
+        if not f.ok:
+            return None
+        rid = f.ident()
+        f.what = f"room '{rid}'"
+        level = f.number("level", integer=True, required=True)
+        room = m.Room(rid, f.text("name", default=rid), int(level or 0),
+                      f.choice("use", m.RoomUse, m.RoomUse.OTHER, required=True), f.source(),
+                      outside_sleeping=f.flag("outside_sleeping"), fuel_burning=f.flag("fuel_burning"))
+        f.finish()
+        return room if rid else None
+
+    def _device(self, tree: Any, path: str, line: int, unit_uid: str, room_ids: set[str]) -> m.Device | None:
+        f = Fields(tree, path, self.problems, "device", line)
+        if not f.ok:
+            return None
+        did = f.ident()
+        f.what = f"device '{did}'"
+        kind = f.choice("kind", m.Kind, required=True)
+        room = f.text("room", required=True)
+        if room and room not in room_ids:
+            f.error("room", f"room '{room}' is not a room of this unit"
+                    + _suggest(room, room_ids))
+        sensor = f.choice("sensor", m.Sensor)
+        if kind and sensor and sensor not in m.SENSORS_FOR_KIND[kind]:
+            allowed = ", ".join(sorted(m.SENSORS_FOR_KIND[kind])) or "none"
+            f.error("sensor", f"a {kind.label} does not have a {sensor} sensor (expected: {allowed})")
+        power = f.choice("power", m.Power, m.Power.BATTERY, required=True)
+        is_alarm = kind in m.ALARM_KINDS
+        manufactured_text = f.text("manufactured", required=is_alarm)
+        manufactured = f.day("manufactured", allow_month=True, allow_unknown=True)
+        installed = f.day("installed", required=True, allow_month=True)
+        if manufactured and installed and manufactured > installed:
+            f.error("manufactured", f"manufactured ({manufactured_text}) is after installed ({installed})")
+        removed = f.day("removed")
+        if removed and installed and removed < installed:
+            f.error("removed", f"removed ({removed}) is before installed ({installed})")
+        life = f.number("life_years", integer=True, minimum=1)
+        listens = [self._listen(item, path, ln) for item, ln in f.items("listens_to")]
+        if kind is m.Kind.LISTENING_NODE and not listens and f.ok:
+            f.error(None, "a listening node needs 'listens_to': the alarm device ids it is meant to hear")
+        if listens and kind is not m.Kind.LISTENING_NODE:
+            f.error("listens_to", "only a listening_node has 'listens_to'")
+        threshold = f.number("threshold_dba", minimum=0)
+        device = m.Device(
+            did, f"{unit_uid}/{did}", kind or m.Kind.SMOKE, room, power or m.Power.BATTERY,
+            installed or date.min, f.source(), manufactured=manufactured,
+            manufactured_text=manufactured_text, sensor=sensor,
+            life_years=life, removed=removed, location=f.text("location"), note=f.text("note"),
+            interconnected=f.flag("interconnected"), listens_to=tuple(x for x in listens if x),
+            threshold_dba=threshold)
+        f.finish()
+        return device if did and kind and installed else None
+
+    def _listen(self, tree: Any, path: str, line: int) -> m.Listen | None:
+        if isinstance(tree, str):
+            return m.Listen(tree, Source(path, line))
+        f = Fields(tree, path, self.problems, "listens_to item", line)
+        if not f.ok:
+            return None
+        listen = m.Listen(f.text("device", required=True), f.source(),
+                          distance_m=f.number("distance_m", minimum=0),
+                          doors=f.number("doors", integer=True, minimum=0),
+                          walls=f.number("walls", integer=True, minimum=0))
+        f.finish()
+        return listen if listen.device else None
+
+    def _unique(self, items: list, what: str) -> list:
+        """Drop unreadable items and refuse a second item with the same id in one parent."""
+        seen: dict[str, Source] = {}
+        kept = []
+        for item in items:
+            if item is None:
+                continue
+            if item.id in seen:
+                self.problems.add(item.source, f"{what}: duplicate id '{item.id}' (first at {seen[item.id]})")
+                continue
+            seen[item.id] = item.source
+            kept.append(item)
+        return kept
+
+    # ---- events --------------------------------------------------------------------------
+    def _event(self, tree: Any, path: str, line: int) -> m.Event | None:
+        f = Fields(tree, path, self.problems, "event", line)
+        if not f.ok:
+            return None
+        when = f.day("date", required=True)
+        device = f.text("device", required=True)
+        action = f.choice("action", m.Action, required=True)
+        result = f.choice("result", m.Result)
+        if action is m.Action.TEST and result is None and "result" not in f.map:
+            f.error(None, "a test needs 'result: pass' or 'result: fail'")
+        if action and action is not m.Action.TEST and result is not None:
+            f.error("result", f"only a test has a result (this is a '{action}')")
+        event = m.Event(when or date.min, device, action or m.Action.NOTE, f.source(), result,
+                        by=f.text("by"), note=f.text("note"))
+        f.finish()
+        return event if when and device and action else None
+
+    # ---- cross-references ----------------------------------------------------------------
+    def finish(self, as_of: date) -> m.Portfolio:
+        portfolio = m.Portfolio(tuple(self.properties), tuple(self.events))
+        devices = portfolio.devices
+        for located in devices.values():
+            for listen in located.device.listens_to:
+                target = listen.device if "/" in listen.device else f"{located.unit.uid}/{listen.device}"
+                if target not in devices:
+                    self.problems.add(listen.source, f"listens_to: no device '{listen.device}'"
+                                      + _suggest(target, devices))
+                elif devices[target].device.kind is m.Kind.LISTENING_NODE:
+                    self.problems.add(listen.source, f"listens_to: '{listen.device}' is a listening node, "
+                                      "not an alarm")
+        for event in portfolio.events:
+            self._check_event(event, portfolio, as_of)
+        return portfolio
+
+    def _check_event(self, event: m.Event, portfolio: m.Portfolio, as_of: date) -> None:
+        add = lambda message: self.problems.add(event.source, f"event: {message}")  # noqa: E731
+        if event.date > as_of:
+            add(f"dated {event.date}, after the as-of date {as_of} (a future event?)")
+        located = portfolio.devices.get(event.device)
+        if located is None:
+            add(f"no device '{event.device}' (write property/unit/device)"
+                + _suggest(event.device, portfolio.devices))
+            return
+        device = located.device
+        if event.date < device.installed:
+            add(f"dated {event.date}, before '{event.device}' was installed ({device.installed})")
+        retired = portfolio.retired_on(event.device)
+        if retired and event.date > retired:
+            add(f"dated {event.date}, after '{event.device}' was retired ({retired}); "
+                "log it against the device that replaced it")
+
+
+def _suggest(wrong: str, known) -> str:
+    close = difflib.get_close_matches(wrong, list(known), n=1)
+    return f"; did you mean '{close[0]}'?" if close else ""

@@ -1,0 +1,213 @@
+"""What a record is. Typed, immutable, no I/O.
+
+Every record carries the `Source` it was read from, so any later finding can
+point the user back to the line they wrote.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import date
+from enum import StrEnum
+from functools import cached_property
+
+from .errors import Source
+
+
+class Kind(StrEnum):
+    SMOKE = "smoke"
+    CO = "co"
+    SMOKE_CO = "smoke_co"
+    HEAT = "heat"
+    LEAK = "leak"
+    LISTENING_NODE = "listening_node"
+
+    @property
+    def label(self) -> str:
+        return KIND_LABELS[self]
+
+
+KIND_LABELS = {
+    Kind.SMOKE: "smoke alarm",
+    Kind.CO: "CO alarm",
+    Kind.SMOKE_CO: "smoke/CO alarm",
+    Kind.HEAT: "heat alarm",
+    Kind.LEAK: "leak alarm",
+    Kind.LISTENING_NODE: "listening node",
+}
+
+# Kinds that are life-safety alarms with a published replacement life.
+ALARM_KINDS = frozenset({Kind.SMOKE, Kind.CO, Kind.SMOKE_CO, Kind.HEAT})
+
+
+class Power(StrEnum):
+    BATTERY = "battery"          # replaceable battery
+    SEALED = "sealed"            # non-replaceable long-life battery
+    MAINS_BACKUP = "mains_backup"  # hard-wired with a replaceable backup battery
+    MAINS = "mains"              # hard-wired, no battery to change
+
+
+class Sensor(StrEnum):
+    IONIZATION = "ionization"
+    PHOTOELECTRIC = "photoelectric"
+    DUAL = "dual"
+    ELECTROCHEMICAL = "electrochemical"
+    THERMAL = "thermal"
+
+
+# Which sensing elements make sense for each kind (a records check, not a product rule).
+SENSORS_FOR_KIND = {
+    Kind.SMOKE: {Sensor.IONIZATION, Sensor.PHOTOELECTRIC, Sensor.DUAL},
+    Kind.CO: {Sensor.ELECTROCHEMICAL},
+    Kind.SMOKE_CO: {Sensor.IONIZATION, Sensor.PHOTOELECTRIC, Sensor.DUAL, Sensor.ELECTROCHEMICAL},
+    Kind.HEAT: {Sensor.THERMAL},
+    Kind.LEAK: set(),
+    Kind.LISTENING_NODE: set(),
+}
+
+
+class RoomUse(StrEnum):
+    BEDROOM = "bedroom"
+    HALLWAY = "hallway"
+    LIVING = "living"
+    DINING = "dining"
+    KITCHEN = "kitchen"
+    BATHROOM = "bathroom"
+    UTILITY = "utility"
+    GARAGE = "garage"
+    BASEMENT = "basement"
+    LOFT = "loft"
+    OFFICE = "office"
+    STAIRS = "stairs"
+    OTHER = "other"
+
+
+class Action(StrEnum):
+    TEST = "test"
+    BATTERY = "battery"
+    REPLACE = "replace"
+    CLEAN = "clean"
+    INSPECT = "inspect"
+    NOTE = "note"
+
+
+class Result(StrEnum):
+    PASS = "pass"
+    FAIL = "fail"
+
+
+@dataclass(frozen=True)
+class Room:
+    id: str
+    name: str
+    level: int
+    use: RoomUse
+    source: Source
+    outside_sleeping: bool = False
+    fuel_burning: bool = False
+
+
+@dataclass(frozen=True)
+class Listen:
+    """One alarm a listening node is meant to hear, with optional path details."""
+
+    device: str          # as written: a device id in the same unit, or property/unit/device
+    source: Source
+    distance_m: float | None = None
+    doors: int | None = None
+    walls: int | None = None
+
+
+@dataclass(frozen=True)
+class Device:
+    id: str
+    uid: str             # property/unit/device, the id events use
+    kind: Kind
+    room: str
+    power: Power
+    installed: date
+    source: Source
+    manufactured: date | None = None   # None: unknown (or not recorded for non-alarms)
+    manufactured_text: str = ""        # as the user wrote it, e.g. "2019-03" or "unknown"
+    sensor: Sensor | None = None
+    life_years: float | None = None
+    removed: date | None = None
+    location: str = ""
+    note: str = ""
+    interconnected: bool = False
+    listens_to: tuple[Listen, ...] = ()
+    threshold_dba: float | None = None
+
+
+@dataclass(frozen=True)
+class Unit:
+    id: str
+    uid: str             # property/unit
+    name: str
+    source: Source
+    rooms: tuple[Room, ...] = ()
+    devices: tuple[Device, ...] = ()
+    attached_garage: bool = False
+    interconnect_required: bool = False
+
+    def room(self, room_id: str) -> Room | None:
+        return next((r for r in self.rooms if r.id == room_id), None)
+
+
+@dataclass(frozen=True)
+class Property:
+    id: str
+    name: str
+    source: Source
+    address: str = ""
+    units: tuple[Unit, ...] = ()
+
+
+@dataclass(frozen=True)
+class Event:
+    date: date
+    device: str          # property/unit/device
+    action: Action
+    source: Source
+    result: Result | None = None
+    by: str = ""
+    note: str = ""
+
+
+@dataclass(frozen=True)
+class Located:
+    """A device together with the unit and property that hold it."""
+
+    property: Property
+    unit: Unit
+    device: Device
+
+
+@dataclass(frozen=True)
+class Portfolio:
+    properties: tuple[Property, ...] = ()
+    events: tuple[Event, ...] = ()
+
+    @cached_property
+    def devices(self) -> dict[str, Located]:
+        """Every device by uid, in record order."""
+        return {d.uid: Located(p, u, d) for p in self.properties for u in p.units for d in u.devices}
+
+    @cached_property
+    def history(self) -> dict[str, tuple[Event, ...]]:
+        """Each device's events, oldest first; same-day events keep file order."""
+        by_device: dict[str, list[Event]] = {}
+        for event in sorted(self.events, key=lambda e: e.date):  # sort is stable
+            by_device.setdefault(event.device, []).append(event)
+        return {uid: tuple(events) for uid, events in by_device.items()}
+
+    def events_for(self, uid: str) -> tuple[Event, ...]:
+        return self.history.get(uid, ())
+
+    def retired_on(self, uid: str) -> date | None:
+        """The day a device left service: its `removed:` date or its first `replace` event."""
+        device = self.devices[uid].device
+        dates = [e.date for e in self.events_for(uid) if e.action is Action.REPLACE]
+        if device.removed:
+            dates.append(device.removed)
+        return min(dates) if dates else None
+

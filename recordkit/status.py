@@ -1,0 +1,69 @@
+"""The status report: findings for one as-of date, as text (80 columns) or JSON."""
+from __future__ import annotations
+
+import textwrap
+from collections import Counter
+from datetime import date
+
+from . import model as m
+from .cautions import SHORT
+from .checks import TASK_ORDER, Finding
+from .schedule import State
+
+WIDTH = 80
+LABELS = {State.OVERDUE: "[!!] OVERDUE", State.DUE_SOON: "[..] SOON", State.OK: "[  ] ok"}
+
+
+def counts(findings: list[Finding]) -> Counter:
+    return Counter(f.state for f in findings)
+
+
+def status_json(findings: list[Finding], as_of: date, root: str) -> dict:
+    tally = counts(findings)
+    return {"as_of": as_of.isoformat(), "records": root,
+            "summary": {str(state): tally.get(state, 0) for state in State},
+            "items": [f.as_json() for f in findings]}
+
+
+def _when(finding: Finding, as_of: date) -> str:
+    if finding.due is None:
+        return "now (date unknown)"
+    days = (finding.due - as_of).days
+    if finding.state is State.OVERDUE:
+        return f"since {finding.due}" + (f" ({-days} days)" if days < 0 else "")
+    return f"due {finding.due}" + (" (today)" if days == 0 else f" (in {days} days)")
+
+
+def status_text(findings: list[Finding], portfolio: m.Portfolio, as_of: date, show_ok: bool = False) -> str:
+    tally = counts(findings)
+    lines = [f"Alarm records as of {as_of}: {tally[State.OVERDUE]} overdue, "
+             f"{tally[State.DUE_SOON]} due soon, {tally[State.OK]} ok", ""]
+    shown = [f for f in findings if show_ok or f.state is not State.OK]
+    by_unit: dict[str, list[Finding]] = {}
+    for finding in shown:
+        by_unit.setdefault(finding.device.rsplit("/", 1)[0], []).append(finding)
+    for prop in portfolio.properties:
+        units = [u for u in prop.units if u.uid in by_unit]
+        if not units:
+            continue
+        lines.append(f"{prop.name} [{prop.id}]" + (f" - {prop.address}" if prop.address else ""))
+        for unit in units:
+            lines.append(f"  {unit.name} [{unit.id}]")
+            for f in sorted(by_unit[unit.uid], key=lambda f: (f.state.rank, TASK_ORDER[f.task], f.due or date.min)):
+                device_id = f.device.rsplit("/", 1)[1]
+                lines.append(f"    {LABELS[f.state]:<13}{device_id} - {f.task}, {_when(f, as_of)}")
+                lines += _wrap(f.reason, "        ")
+                local = "local policy: " if f.local else ""
+                lines += _wrap(f"rule {f.rule} ({local}{f.source})", "        ")
+        lines.append("")
+    if not shown:
+        lines += ["Nothing is overdue or due soon.", ""]
+    hidden = len(findings) - len(shown)
+    if hidden:
+        lines += [f"{hidden} tasks not yet due are not shown (--all shows them).", ""]
+    lines += _wrap(SHORT, "")
+    return "\n".join(lines) + "\n"
+
+
+def _wrap(text: str, indent: str) -> list[str]:
+    return textwrap.wrap(text, WIDTH, initial_indent=indent, subsequent_indent=indent + "  ")

@@ -1,0 +1,165 @@
+"""Safe YAML reading that keeps line numbers and refuses what records never need.
+
+PyYAML's `safe_load` forgets where values came from, silently keeps the last of
+two duplicate keys and expands aliases without limit ("billion laughs"). Here
+we only *compose* the document (no objects are built from tags) and walk the
+node graph ourselves, so every mapping and list remembers its lines, duplicate
+keys and aliases become problems, and dates stay as the text the user wrote
+(the model parses them with its own, stricter rules).
+"""
+from __future__ import annotations
+
+from typing import Any
+
+import yaml
+
+from .errors import Problems, Source
+
+try:  # the C parser is much faster on big log files; same behaviour
+    _Loader = yaml.CSafeLoader
+except AttributeError:  # pragma: no cover - depends on how PyYAML was built
+    _Loader = yaml.SafeLoader
+
+MAX_FILE_BYTES = 64 * 1024 * 1024  # a hand-kept record file is far smaller
+
+_MAP = "tag:yaml.org,2002:map"
+_SEQ = "tag:yaml.org,2002:seq"
+_TIMESTAMP = "tag:yaml.org,2002:timestamp"
+_SCALAR_TAGS = {
+    "tag:yaml.org,2002:str",
+    "tag:yaml.org,2002:int",
+    "tag:yaml.org,2002:float",
+    "tag:yaml.org,2002:bool",
+    "tag:yaml.org,2002:null",
+}
+_constructor = yaml.constructor.SafeConstructor()
+
+
+class YMap(dict):
+    """A mapping that knows its own line and the line of each key and value."""
+
+    line: int
+    key_lines: dict
+    value_lines: dict
+
+    def line_of(self, key: str) -> int:
+        return self.value_lines.get(key, self.key_lines.get(key, self.line))
+
+
+class YList(list):
+    """A list that knows its own line and the line of each item."""
+
+    line: int
+    item_lines: list
+
+
+def read_yaml(data: bytes, path: str, problems: Problems) -> Any:
+    """Parse one file's bytes. Returns the located tree, or None after adding problems."""
+    if len(data) > MAX_FILE_BYTES:
+        problems.add(Source(path, 1), f"file is {len(data):,} bytes; record files are limited to "
+                     f"{MAX_FILE_BYTES:,} bytes (split it, e.g. one log file per year)")
+        return None
+    text = _decode(data, path, problems)
+    if text is None:
+        return None
+    try:
+        node = yaml.compose(text, Loader=_Loader)
+    except yaml.MarkedYAMLError as exc:
+        mark = exc.problem_mark or exc.context_mark
+        line = mark.line + 1 if mark else 1
+        problems.add(Source(path, line), _explain_yaml_error(exc))
+        return None
+    except yaml.YAMLError as exc:
+        problems.add(Source(path, 1), f"cannot read YAML: {exc}")
+        return None
+    if node is None:
+        return None
+    return _Walker(path, problems).walk(node)
+
+
+def _decode(data: bytes, path: str, problems: Problems) -> str | None:
+    try:
+        return data.decode("utf-8-sig")  # a byte-order mark from a Windows editor is fine
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        problems.add(Source(path, line), f"not UTF-8 text (byte 0x{data[exc.start]:02x} at offset "
+                     f"{exc.start}); save the file as UTF-8")
+        return None
+
+
+def _explain_yaml_error(exc: yaml.MarkedYAMLError) -> str:
+    problem = exc.problem or str(exc)
+    if "'\\t'" in problem or "\t" in problem:
+        return "a tab character where YAML needs spaces; indent with spaces only"
+    if exc.context and "single document" in exc.context:
+        return "only one YAML document per file (remove the extra '---')"
+    context = f" ({exc.context})" if exc.context else ""
+    return f"YAML syntax: {problem}{context}"
+
+
+class _Walker:
+    def __init__(self, path: str, problems: Problems):
+        self.path = path
+        self.problems = problems
+        self.seen: set[int] = set()
+
+    def _problem(self, node: yaml.Node, message: str) -> None:
+        self.problems.add(Source(self.path, node.start_mark.line + 1), message)
+
+    def walk(self, node: yaml.Node) -> Any:
+        # An alias makes the composer hand back the same node object twice.
+        # Records never need aliases, and refusing them here stops alias bombs
+        # before anything is expanded.
+        if id(node) in self.seen:
+            self._problem(node, "YAML anchors and aliases (&name / *name) are not allowed in records; "
+                          "write the value out")
+            return None
+        self.seen.add(id(node))
+        if isinstance(node, yaml.MappingNode):
+            return self._mapping(node)
+        if isinstance(node, yaml.SequenceNode):
+            return self._sequence(node)
+        return self._scalar(node)
+
+    def _mapping(self, node: yaml.MappingNode) -> YMap | None:
+        if node.tag != _MAP:
+            self._problem(node, f"YAML tag {node.tag!r} is not allowed in records")
+            return None
+        result = YMap()
+        result.line = node.start_mark.line + 1
+        result.key_lines, result.value_lines = {}, {}
+        for key_node, value_node in node.value:
+            if not isinstance(key_node, yaml.ScalarNode) or key_node.tag == "tag:yaml.org,2002:merge":
+                self._problem(key_node, "keys must be plain words (no '<<' merges or complex keys)")
+                continue
+            key = key_node.value
+            if key in result.key_lines:
+                self._problem(key_node, f"duplicate key {key!r} (first at line {result.key_lines[key]})")
+                continue
+            result.key_lines[key] = key_node.start_mark.line + 1
+            result.value_lines[key] = value_node.start_mark.line + 1
+            result[key] = self.walk(value_node)
+        return result
+
+    def _sequence(self, node: yaml.SequenceNode) -> YList | None:
+        if node.tag != _SEQ:
+            self._problem(node, f"YAML tag {node.tag!r} is not allowed in records")
+            return None
+        result = YList(self.walk(item) for item in node.value)
+        result.line = node.start_mark.line + 1
+        result.item_lines = [item.start_mark.line + 1 for item in node.value]
+        return result
+
+    def _scalar(self, node: yaml.ScalarNode) -> Any:
+        if node.tag == _TIMESTAMP:
+            return node.value  # keep dates as written; the model parses them strictly
+        if node.tag not in _SCALAR_TAGS:
+            self._problem(node, f"YAML tag {node.tag!r} is not allowed in records")
+            return None
+        try:
+            # Call the tag's constructor directly: construct_object() would cache
+            # every node in a shared dict and keep whole files alive.
+            return _constructor.yaml_constructors[node.tag](_constructor, node)
+        except (yaml.YAMLError, ValueError) as exc:
+            self._problem(node, f"cannot read value {node.value!r}: {exc}")
+            return None
