@@ -100,7 +100,8 @@ class _Builder:
         top = Fields(tree, path, self.problems, "file")
         if not top.ok:
             return
-        if "property" not in top.map and "events" not in top.map:
+        top.used.update({"property", "events"})
+        if not top.map:
             top.error(None, "expected 'property:' and/or 'events:' at the top level")
         if "property" in top.map:
             prop = self._property(top.raw("property"), path, top.map.line_of("property"))

@@ -67,7 +67,7 @@ def read_yaml(data: bytes, path: str, problems: Problems) -> Any:
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
         line = mark.line + 1 if mark else 1
-        problems.add(Source(path, line), _explain_yaml_error(exc))
+        problems.add(Source(path, line), _explain_yaml_error(exc, text))
         return None
     except yaml.YAMLError as exc:
         problems.add(Source(path, 1), f"cannot read YAML: {exc}")
@@ -87,9 +87,12 @@ def _decode(data: bytes, path: str, problems: Problems) -> str | None:
         return None
 
 
-def _explain_yaml_error(exc: yaml.MarkedYAMLError) -> str:
+def _explain_yaml_error(exc: yaml.MarkedYAMLError, text: str) -> str:
     problem = exc.problem or str(exc)
-    if "'\\t'" in problem or "\t" in problem:
+    mark = exc.problem_mark
+    lines = text.splitlines()
+    at_mark = lines[mark.line][: mark.column + 1] if mark and mark.line < len(lines) else ""
+    if "\t" in at_mark or "\t" in problem:
         return "a tab character where YAML needs spaces; indent with spaces only"
     if exc.context and "single document" in exc.context:
         return "only one YAML document per file (remove the extra '---')"
