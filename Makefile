@@ -13,12 +13,12 @@ $(BIN)/recordkit: pyproject.toml
 	$(BIN)/python -m pip install --quiet -e '.[test]'
 	touch $@
 
-demo: $(BIN)/recordkit  ## show the demo records' status
+demo: $(BIN)/recordkit  ## build the demo site from records/ into site/
 	$(BIN)/recordkit check records --as-of $(DEMO_AS_OF)
-	-$(BIN)/recordkit status records --as-of $(DEMO_AS_OF)
+	$(BIN)/recordkit build records --as-of $(DEMO_AS_OF) --out site
 
 test: $(BIN)/recordkit  ## run the whole test suite
 	$(BIN)/python -m pytest
 
 clean:
-	rm -rf $(VENV) site .pytest_cache
+	rm -rf $(VENV) site artifacts .pytest_cache

@@ -106,5 +106,48 @@ def rules(records_dir: str, as_of) -> None:
         click.echo(f"    {rule.title}. Source: {rule.source}")
 
 
+config_option = click.option("--config", "config_file", default="mkdocs.yml", show_default=True,
+                             type=click.Path(exists=True, dir_okay=False),
+                             help="The MkDocs configuration that uses the recordkit plugin.")
+
+
+@main.command()
+@records_argument
+@as_of_option
+@click.option("--out", default=None, type=click.Path(file_okay=False),
+              help="Write the site here (default: site_dir of the config, usually site/).")
+@config_option
+def build(records_dir: str, as_of, out: str | None, config_file: str) -> None:
+    """Build the static site from the records (MkDocs + Material, through our plugin).
+
+    Open OUT/index.html from disk or host the folder anywhere. Exit status 1
+    when the records have problems (each printed as file:line: message)."""
+    from .mkdocs_plugin import SiteBuildError, build_site
+
+    click.echo(f"Building the site from {records_dir} ...", err=True)
+    try:
+        site_dir = build_site(config_file, records_dir, _as_of(as_of), out)
+    except SiteBuildError as exc:
+        click.echo(str(exc), err=True)
+        sys.exit(EXIT_ERRORS)
+    click.echo(f"Site written to {site_dir}/ (open index.html).")
+
+
+@main.command()
+@records_argument
+@as_of_option
+@config_option
+@click.option("--address", default="127.0.0.1:8000", show_default=True, help="Where to serve the site.")
+def serve(records_dir: str, as_of, config_file: str, address: str) -> None:
+    """Serve the site locally and rebuild it whenever a record file changes."""
+    from .mkdocs_plugin import SiteBuildError, serve_site
+
+    try:
+        serve_site(config_file, records_dir, _as_of(as_of) if as_of else None, address)
+    except SiteBuildError as exc:
+        click.echo(str(exc), err=True)
+        sys.exit(EXIT_ERRORS)
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()

@@ -66,3 +66,30 @@ def run_cli(*args: str, cwd: Path = REPO) -> subprocess.CompletedProcess:
     """Run the installed `recordkit` console script (the real entry point)."""
     script = Path(sys.executable).parent / "recordkit"
     return subprocess.run([str(script), *args], capture_output=True, text=True, cwd=cwd, timeout=120)
+
+
+ARTIFACTS = REPO / "artifacts"  # screenshots and PDFs the tests keep for a person to look at
+CHROMIUM, CHROMEDRIVER = "/usr/bin/chromium", "/usr/bin/chromedriver"
+
+
+@pytest.fixture(scope="session")
+def browser():
+    """Headless Chromium through chromedriver. CI installs both (.ci/run); elsewhere the test skips."""
+    import os
+    import shutil
+
+    if not (shutil.which(CHROMIUM) and shutil.which(CHROMEDRIVER)):
+        if os.environ.get("CI"):
+            pytest.fail("chromium and chromium-driver are not installed; .ci/run installs them")
+        pytest.skip("needs Debian's chromium and chromium-driver")
+    from selenium import webdriver
+    from selenium.webdriver.chrome.service import Service
+
+    options = webdriver.ChromeOptions()
+    options.binary_location = CHROMIUM
+    for flag in ("--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+                 "--disable-component-update", "--disable-sync", "--no-first-run", "--window-size=1280,1400"):
+        options.add_argument(flag)
+    driver = webdriver.Chrome(service=Service(CHROMEDRIVER), options=options)
+    yield driver
+    driver.quit()

@@ -1,0 +1,160 @@
+"""The MkDocs plugin: loads the records once per build and adds the generated pages.
+
+The only module that imports MkDocs. It holds no rules: loading, checks and page
+rendering live in the library; this face only wires them into a build, turns
+record problems into a clean `PluginError`, and watches the records folder
+under `mkdocs serve`.
+"""
+from __future__ import annotations
+
+import logging
+import os
+from datetime import date
+from pathlib import Path
+
+from mkdocs.config import base, config_options
+from mkdocs.config.defaults import MkDocsConfig
+from mkdocs.exceptions import MkDocsException, PluginError
+from mkdocs.plugins import BasePlugin
+from mkdocs.structure.files import File, Files, InclusionLevel
+
+from .cautions import SHORT
+from .checks import evaluate
+from .loader import load_records
+from .render.site import ASSETS, Page, site_pages
+from .rules import Interval, Rule
+
+log = logging.getLogger("mkdocs.plugins.recordkit")
+
+# `recordkit build` / `recordkit serve` pass their arguments this way, because
+# `mkdocs serve` reloads the config from the file on every rebuild.
+ENV_RECORDS = "RECORDKIT_RECORDS"
+ENV_AS_OF = "RECORDKIT_AS_OF"
+# Markdown features the generated pages rely on.
+NEEDED_EXTENSIONS = ("tables", "attr_list", "md_in_html", "admonition", "toc")
+CSS = "assets/recordkit.css"
+SHIM = "assets/iframe-worker-shim.js"  # vendored (MIT) so search works from disk without a CDN
+
+
+class RecordkitConfig(base.Config):
+    records = config_options.Type(str, default="records")
+    as_of = config_options.Optional(config_options.Type(str))
+    due_soon_days = config_options.Type(dict, default={})
+
+
+class RecordkitPlugin(BasePlugin[RecordkitConfig]):
+    def __init__(self) -> None:
+        self.pages: list[Page] = []
+        self.records_dir: Path | None = None
+
+    def on_config(self, config: MkDocsConfig) -> MkDocsConfig:
+        # From the CLI: relative to where it runs; from mkdocs.yml: relative to that file.
+        if os.environ.get(ENV_RECORDS):
+            self.records_dir = Path(os.environ[ENV_RECORDS])
+        else:
+            base_dir = Path(config.config_file_path or ".").resolve().parent
+            self.records_dir = _shown(base_dir / self.config.records)
+        as_of = self._as_of()
+        loaded = load_records(self.records_dir, as_of)
+        if loaded.problems:
+            lines = "\n".join(str(p) for p in loaded.problems)
+            raise PluginError(f"recordkit: {len(loaded.problems)} problem(s) in the records:\n{lines}")
+        policy = loaded.policy
+        for task, days in self.config.due_soon_days.items():
+            name = f"due_soon_{task}"
+            try:
+                rule = policy[name]
+            except KeyError:
+                raise PluginError(f"recordkit: due_soon_days: unknown task {task!r} "
+                                  "(replace, test, battery)") from None
+            if not isinstance(days, int) or isinstance(days, bool) or days < 0:
+                raise PluginError(f"recordkit: due_soon_days.{task} must be a whole number of days")
+            policy = policy.with_override(Rule(name, rule.title, Interval(days, "days"),
+                                               f"{config.config_file_path}: plugins.recordkit.due_soon_days",
+                                               local=True))
+        loaded.policy = policy
+        findings = evaluate(loaded.portfolio, policy, as_of)
+        self.pages = site_pages(loaded, findings, as_of)
+        log.info("recordkit: %d devices, %d tasks as of %s", len(loaded.portfolio.devices), len(findings), as_of)
+
+        for name in NEEDED_EXTENSIONS:
+            if name not in config.markdown_extensions:
+                config.markdown_extensions.append(name)
+        if CSS not in config.extra_css:
+            config.extra_css.append(CSS)
+        # Our own copy of the worker shim; drop a CDN copy that the offline plugin may have added
+        # if it ran before us (with ours in place it adds none).
+        polyfills = [p for p in config.extra.get("polyfills", []) if "//" not in str(p)]
+        config.extra["polyfills"] = polyfills + ([SHIM] if SHIM not in polyfills else [])
+        if SHORT not in (config.copyright or ""):
+            config.copyright = f"{config.copyright} · {SHORT}" if config.copyright else SHORT
+        return config
+
+    def _as_of(self) -> date:
+        text = os.environ.get(ENV_AS_OF) or self.config.as_of
+        if not text:
+            return date.today()  # a face, like the CLI: the only other place that reads the clock
+        try:
+            return date.fromisoformat(str(text))
+        except ValueError:
+            raise PluginError(f"recordkit: as_of must be a date as YYYY-MM-DD, got {text!r}") from None
+
+    def on_files(self, files: Files, /, *, config: MkDocsConfig) -> Files:
+        for page in self.pages:
+            if files.get_file_from_path(page.src_uri):
+                raise PluginError(f"recordkit: {page.src_uri} is generated from the records; "
+                                  f"remove the hand-written file of that name from {config.docs_dir}")
+            inclusion = InclusionLevel.UNDEFINED if page.in_nav else InclusionLevel.NOT_IN_NAV
+            files.append(File.generated(config, page.src_uri, content=page.content, inclusion=inclusion))
+        for asset in (CSS, SHIM):
+            files.append(File.generated(config, asset, content=(ASSETS / Path(asset).name).read_bytes()))
+        return files
+
+    def on_serve(self, server, /, *, config: MkDocsConfig, builder):
+        if self.records_dir:
+            server.watch(str(self.records_dir))
+        return server
+
+
+class SiteBuildError(Exception):
+    """A build stopped: bad records, a bad mkdocs.yml, or a MkDocs failure. The message says which."""
+
+
+def build_site(config_file: str, records: str, as_of: date | None, out: str | None) -> str:
+    """Build the site as `mkdocs build` would; returns the output folder."""
+    from mkdocs.commands.build import build
+    from mkdocs.config import load_config
+
+    _pass_arguments(records, as_of)
+    overrides = {"site_dir": os.path.abspath(out)} if out else {}
+    try:
+        config = load_config(config_file, **overrides)
+        build(config)
+    except MkDocsException as exc:
+        raise SiteBuildError(str(exc)) from None
+    return config.site_dir
+
+
+def serve_site(config_file: str, records: str, as_of: date | None, address: str) -> None:
+    from mkdocs.commands.serve import serve
+
+    _pass_arguments(records, as_of)
+    try:
+        serve(config_file=config_file, dev_addr=address, livereload=True)
+    except MkDocsException as exc:
+        raise SiteBuildError(str(exc)) from None
+
+
+def _shown(path: Path) -> Path:
+    """The path relative to the working folder when it is inside it: shorter messages and record links."""
+    try:
+        return path.resolve().relative_to(Path.cwd())
+    except ValueError:
+        return path
+
+
+def _pass_arguments(records: str, as_of: date | None) -> None:
+    os.environ[ENV_RECORDS] = records
+    if as_of:
+        os.environ[ENV_AS_OF] = as_of.isoformat()
+    os.environ.setdefault("NO_MKDOCS_2_WARNING", "1")

@@ -1,0 +1,216 @@
+"""The site's pages as Markdown strings, built from loaded records and findings.
+
+Pure: no MkDocs here. The plugin wraps these pages in MkDocs files; anything
+else (a pre-build step, another generator) could use them too.
+"""
+from __future__ import annotations
+
+import html
+import json
+import posixpath
+from collections import Counter
+from dataclasses import dataclass
+from datetime import date, timedelta
+from pathlib import Path
+
+import jinja2
+from markupsafe import Markup
+
+from .. import model as m
+from ..cautions import CAUTIONS, SHORT
+from ..checks import TASK_ORDER, Finding
+from ..loader import Loaded
+from ..schedule import State
+from .escape import md_text
+
+TEMPLATES = Path(__file__).resolve().parents[2] / "site_templates"
+ASSETS = TEMPLATES / "assets"
+UPCOMING_DAYS = 90
+
+# Our own state labels: a symbol and a word, so state never rests on colour alone.
+STATE_LABELS = {State.OVERDUE: ("‼", "Overdue"), State.DUE_SOON: ("◔", "Due soon"), State.OK: ("✓", "In date")}
+TASK_LABELS = {"replace": "Replace", "test": "Test", "battery": "Battery", "fix": "Fix"}
+
+
+@dataclass(frozen=True)
+class Page:
+    src_uri: str
+    content: str
+    in_nav: bool = True
+
+
+def property_uri(prop: m.Property) -> str:
+    return f"properties/{prop.id}.md"
+
+
+def unit_uri(prop: m.Property, unit: m.Unit) -> str:
+    return f"properties/{prop.id}/{unit.id}.md"
+
+
+def device_anchor(device: m.Device) -> str:
+    return f"device-{device.id}"
+
+
+@dataclass
+class DeviceView:
+    """One device with its findings, in the shape the templates need."""
+
+    located: m.Located
+    findings: list[Finding]
+    history: tuple[m.Event, ...]
+    retired: date | None
+
+    @property
+    def device(self) -> m.Device:
+        return self.located.device
+
+    @property
+    def state(self) -> State | None:
+        return min((f.state for f in self.findings), key=lambda s: s.rank, default=None)
+
+    @property
+    def next(self) -> Finding | None:
+        """The most pressing task: overdue first, then the earliest date."""
+        return min(self.findings, default=None,
+                   key=lambda f: (f.state.rank, f.due or date.min, TASK_ORDER[f.task]))
+
+    @property
+    def replacement(self) -> Finding | None:
+        return next((f for f in self.findings if f.task == "replace"), None)
+
+
+class SiteBuilder:
+    def __init__(self, loaded: Loaded, findings: list[Finding], as_of: date):
+        self.loaded = loaded
+        self.portfolio = loaded.portfolio
+        self.as_of = as_of
+        self.findings = findings
+        by_device: dict[str, list[Finding]] = {}
+        for finding in findings:
+            by_device.setdefault(finding.device, []).append(finding)
+        self.views = {uid: DeviceView(loc, by_device.get(uid, []), self.portfolio.events_for(uid),
+                                      self.portfolio.retired_on(uid))
+                      for uid, loc in self.portfolio.devices.items()}
+        self.env = jinja2.Environment(
+            loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=False, finalize=md_text,
+            trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined, keep_trailing_newline=True)
+        self.env.globals.update(badge=badge, anchor=anchor, front_title=front_title, task_label=TASK_LABELS.get, kind_label=kind_label,
+                                when=lambda f: when(f, as_of), as_of=as_of, short_caution=SHORT,
+                                state_labels=STATE_LABELS)
+
+    # ---- helpers available to templates ------------------------------------------------
+    def _render(self, template: str, here: str, **context) -> str:
+        def link(target: str, anchor: str | None = None) -> Markup:
+            url = posixpath.relpath(target, posixpath.dirname(here) or ".")
+            return Markup(url + (f"#{anchor}" if anchor else ""))
+
+        def device_link(view: DeviceView) -> Markup:
+            loc = view.located
+            url = link(unit_uri(loc.property, loc.unit), device_anchor(loc.device))
+            return Markup(f"[{md_text(loc.device.id)}]({url})")
+
+        def where(view: DeviceView) -> Markup:
+            loc = view.located
+            room = loc.unit.room(loc.device.room)
+            parts = [md_text(loc.property.name), f"[{md_text(loc.unit.name)}]({link(unit_uri(loc.property, loc.unit))})",
+                     md_text(room.name if room else loc.device.room)]
+            return Markup(" › ".join(parts))
+
+        return self.env.get_template(template).render(
+            here=here, link=link, device_link=device_link, where=where, views=self.views,
+            unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor, **context)
+
+    # ---- pages -------------------------------------------------------------------------
+    def pages(self) -> list[Page]:
+        pages = [self.overview(), self.rules(), self.about()]
+        for prop in self.portfolio.properties:
+            pages.append(Page(property_uri(prop), self._render("property.md.j2", property_uri(prop), prop=prop,
+                                                                 units=[self._unit_summary(prop, u) for u in prop.units],
+                                                                 devices=self._active(prop.units))))
+            for unit in prop.units:
+                pages.append(self.unit_page(prop, unit))
+        return pages
+
+    def _active(self, units) -> list[DeviceView]:
+        return [self.views[d.uid] for u in units for d in u.devices if not self._retired(self.views[d.uid])]
+
+    def _retired(self, view: DeviceView) -> bool:
+        return view.retired is not None and view.retired <= self.as_of
+
+    def _unit_summary(self, prop: m.Property, unit: m.Unit) -> dict:
+        states = Counter(v.state for v in self._active([unit]))
+        return {"unit": unit, "uri": unit_uri(prop, unit), "devices": sum(states.values()),
+                "overdue": states[State.OVERDUE], "due_soon": states[State.DUE_SOON]}
+
+    def overview(self) -> Page:
+        active = self._active(u for p in self.portfolio.properties for u in p.units)
+        by_kind: dict[m.Kind, Counter] = {}
+        for view in active:
+            by_kind.setdefault(view.device.kind, Counter())[view.state] += 1
+        totals = Counter(view.state for view in active)
+        overdue = sorted((f for f in self.findings if f.state is State.OVERDUE),
+                         key=lambda f: (f.due or date.min, f.device))
+        horizon = self.as_of + timedelta(days=UPCOMING_DAYS)
+        upcoming = sorted((f for f in self.findings
+                           if f.state is not State.OVERDUE and f.due and f.due <= horizon),
+                          key=lambda f: (f.due, f.device, TASK_ORDER[f.task]))
+        content = self._render(
+            "overview.md.j2", "index.md", kinds=[(k, by_kind[k]) for k in m.Kind if k in by_kind],
+            totals=totals, overdue=overdue, upcoming=upcoming, upcoming_days=UPCOMING_DAYS,
+            last_changed=self.loaded.last_changed, files=len(self.loaded.files),
+            properties=self.portfolio.properties)
+        return Page("index.md", content)
+
+    def unit_page(self, prop: m.Property, unit: m.Unit) -> Page:
+        views = [self.views[d.uid] for d in unit.devices]
+        rooms = [(room, [v for v in views if v.device.room == room.id and not self._retired(v)])
+                 for room in unit.rooms]
+        content = self._render("unit.md.j2", unit_uri(prop, unit), prop=prop, unit=unit, rooms=rooms,
+                               active=[v for v in views if not self._retired(v)],
+                               retired=[v for v in views if self._retired(v)])
+        return Page(unit_uri(prop, unit), content, in_nav=False)
+
+    def rules(self) -> Page:
+        return Page("rules.md", self._render("rules.md.j2", "rules.md", rules=list(self.loaded.policy)))
+
+    def about(self) -> Page:
+        return Page("about.md", self._render("about.md.j2", "about.md", cautions=CAUTIONS))
+
+
+def site_pages(loaded: Loaded, findings: list[Finding], as_of: date) -> list[Page]:
+    return SiteBuilder(loaded, findings, as_of).pages()
+
+
+def badge(state: State | str | None) -> Markup:
+    if state is None:
+        return Markup('<span class="rk-state rk-none">— no tasks</span>')
+    state = State(state)
+    symbol, word = STATE_LABELS[state]
+    return Markup(f'<span class="rk-state rk-{state.value.replace("_", "-")}">'
+                  f'<span aria-hidden="true">{symbol}</span> {word}</span>')
+
+
+def front_title(text: str) -> Markup:
+    """A page title for the front matter. MkDocs puts it into the nav and <title> as it is
+    (it expects HTML, as when it takes a title from a heading), so escape it here."""
+    return Markup(json.dumps(html.escape(" ".join(text.split()))))
+
+
+def anchor(name: str) -> Markup:
+    """A Markdown attr_list id for a heading (names are validated ids, safe as they are)."""
+    return Markup("{#" + name + "}")
+
+
+def kind_label(kind: m.Kind) -> str:
+    return kind.label[0].upper() + kind.label[1:]
+
+
+def when(finding: Finding | None, as_of: date) -> str:
+    if finding is None:
+        return ""
+    if finding.due is None:
+        return "now (date unknown)"
+    days = (finding.due - as_of).days
+    if days < 0:
+        return f"{finding.due} ({-days} days ago)"
+    return f"{finding.due} (today)" if days == 0 else f"{finding.due} (in {days} days)"

@@ -1,0 +1,53 @@
+"""The plugin's own options and hooks, driven through MkDocs' config loading."""
+from pathlib import Path
+
+import pytest
+from mkdocs.config import load_config
+from mkdocs.exceptions import PluginError
+
+from .conftest import DEMO_AS_OF, REPO
+
+
+def configured(monkeypatch, **options):
+    monkeypatch.delenv("RECORDKIT_RECORDS", raising=False)
+    monkeypatch.setenv("RECORDKIT_AS_OF", DEMO_AS_OF.isoformat())
+    monkeypatch.chdir(REPO)
+    config = load_config(str(REPO / "mkdocs.yml"))
+    plugin = config.plugins["recordkit"]
+    plugin.config.update(options)
+    return config, plugin
+
+
+def test_due_soon_days_option_becomes_a_local_rule(monkeypatch):
+    config, plugin = configured(monkeypatch, due_soon_days={"replace": 200})
+    plugin.on_config(config)
+    rules = next(p for p in plugin.pages if p.src_uri == "rules.md").content
+    assert "200 days" in rules and "plugins.recordkit.due&#95;soon&#95;days" in rules
+
+
+def test_due_soon_days_rejects_an_unknown_task(monkeypatch):
+    config, plugin = configured(monkeypatch, due_soon_days={"paint": 3})
+    with pytest.raises(PluginError, match="unknown task 'paint'"):
+        plugin.on_config(config)
+
+
+def test_serve_watches_the_records_folder(monkeypatch):
+    config, plugin = configured(monkeypatch)
+    plugin.on_config(config)
+
+    class Server:
+        watched: list[str] = []
+
+        def watch(self, path):
+            self.watched.append(path)
+
+    server = plugin.on_serve(Server(), config=config, builder=None)
+    assert [Path(p).resolve() for p in server.watched] == [REPO / "records"]
+
+
+def test_generated_unit_pages_stay_out_of_the_nav(monkeypatch):
+    # Material renders the whole nav into every page: units in the nav would make builds quadratic.
+    config, plugin = configured(monkeypatch)
+    plugin.on_config(config)
+    assert all(not p.in_nav for p in plugin.pages if p.src_uri.count("/") == 2)
+    assert all(p.in_nav for p in plugin.pages if p.src_uri.count("/") < 2)
