@@ -106,6 +106,59 @@ def rules(records_dir: str, as_of) -> None:
         click.echo(f"    {rule.title}. Source: {rule.source}")
 
 
+@main.command()
+@records_argument
+@click.option("--property", "property_id", metavar="ID", help="The property (required unless --sheet blank).")
+@click.option("--unit", "unit_id", metavar="ID", help="Just this unit (default: every unit, one per page).")
+@as_of_option
+@click.option("--sheet", type=click.Choice(["inspection", "monthly", "blank"]), default="inspection",
+              show_default=True, help="inspection: a checklist per unit; monthly: a homeowner's 12-month "
+              "test card (needs --unit); blank: a sheet for recording a new unit.")
+@click.option("--paper", type=click.Choice(["a4", "letter"]), default="a4", show_default=True,
+              help="Paper size for PDF output (landscape).")
+@click.option("--out", required=True, type=click.Path(dir_okay=False, writable=True),
+              help="Output file: .pdf or .html.")
+def checklist(records_dir: str, property_id: str | None, unit_id: str | None, as_of, sheet: str, paper: str,
+              out: str) -> None:
+    """Print-ready checklists: one unit per page with tick boxes, signature lines and cautions.
+
+    Examples:  recordkit checklist --property tansy-house --out packet.pdf
+               recordkit checklist --property bramble-cottage --unit home --sheet monthly --out card.pdf"""
+    from pathlib import Path
+
+    from .render.checklist import blank_unit_html, inspection_html, monthly_card_html, property_sheets
+
+    target = Path(out)
+    if target.suffix.lower() not in (".pdf", ".html"):
+        raise click.BadParameter("give a file ending in .pdf or .html", param_hint="--out")
+    if sheet == "blank":
+        html = blank_unit_html(paper)
+    else:
+        if not property_id:
+            raise click.UsageError("--property is required for inspection and monthly sheets")
+        if sheet == "monthly" and not unit_id:
+            raise click.UsageError("--sheet monthly needs --unit")
+        day = _as_of(as_of)
+        loaded = _load(records_dir, day)
+        if loaded.problems:
+            sys.exit(EXIT_ERRORS)
+        findings = evaluate(loaded.portfolio, loaded.policy, day)
+        try:
+            sheets = property_sheets(loaded, findings, property_id, day, unit_id)
+        except KeyError as exc:
+            raise click.UsageError(exc.args[0]) from None
+        html = (monthly_card_html(sheets[0], day, paper) if sheet == "monthly"
+                else inspection_html(sheets, day, paper))
+    if target.suffix.lower() == ".pdf":
+        from .render.pdf import write_pdf
+
+        click.echo(f"Rendering {target} ...", err=True)
+        write_pdf(html, target)
+    else:
+        target.write_text(html, encoding="utf-8")
+    click.echo(f"Wrote {target}")
+
+
 config_option = click.option("--config", "config_file", default="mkdocs.yml", show_default=True,
                              type=click.Path(exists=True, dir_okay=False),
                              help="The MkDocs configuration that uses the recordkit plugin.")

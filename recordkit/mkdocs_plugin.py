@@ -21,7 +21,8 @@ from mkdocs.structure.files import File, Files, InclusionLevel
 from .cautions import SHORT
 from .checks import evaluate
 from .loader import load_records
-from .render.site import ASSETS, Page, site_pages
+from .render.labels import ASSETS
+from .render.site import Page, site_pages
 from .rules import Interval, Rule
 
 log = logging.getLogger("mkdocs.plugins.recordkit")
@@ -104,7 +105,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             if files.get_file_from_path(page.src_uri):
                 raise PluginError(f"recordkit: {page.src_uri} is generated from the records; "
                                   f"remove the hand-written file of that name from {config.docs_dir}")
-            inclusion = InclusionLevel.UNDEFINED if page.in_nav else InclusionLevel.NOT_IN_NAV
+            inclusion = InclusionLevel.UNDEFINED if page.in_nav and not page.static else InclusionLevel.NOT_IN_NAV
             files.append(File.generated(config, page.src_uri, content=page.content, inclusion=inclusion))
         for asset in (CSS, SHIM):
             files.append(File.generated(config, asset, content=(ASSETS / Path(asset).name).read_bytes()))

@@ -11,7 +11,6 @@ import posixpath
 from collections import Counter
 from dataclasses import dataclass
 from datetime import date, timedelta
-from pathlib import Path
 
 import jinja2
 from markupsafe import Markup
@@ -21,15 +20,11 @@ from ..cautions import CAUTIONS, SHORT
 from ..checks import TASK_ORDER, Finding
 from ..loader import Loaded
 from ..schedule import State
+from .checklist import blank_unit_html, findings_by_device, inspection_html, monthly_card_html, unit_sheet
 from .escape import md_text
+from .labels import STATE_LABELS, TASK_LABELS, TEMPLATES, kind_label
 
-TEMPLATES = Path(__file__).resolve().parents[2] / "site_templates"
-ASSETS = TEMPLATES / "assets"
 UPCOMING_DAYS = 90
-
-# Our own state labels: a symbol and a word, so state never rests on colour alone.
-STATE_LABELS = {State.OVERDUE: ("‼", "Overdue"), State.DUE_SOON: ("◔", "Due soon"), State.OK: ("✓", "In date")}
-TASK_LABELS = {"replace": "Replace", "test": "Test", "battery": "Battery", "fix": "Fix"}
 
 
 @dataclass(frozen=True)
@@ -37,6 +32,16 @@ class Page:
     src_uri: str
     content: str
     in_nav: bool = True
+    static: bool = False   # a finished file (a printable sheet), copied as it is
+
+
+def checklist_uri(prop: m.Property, unit: m.Unit | None = None, monthly: bool = False) -> str:
+    if unit is None:
+        return f"checklists/{prop.id}.html"
+    return f"checklists/{prop.id}/{unit.id}{'-monthly' if monthly else ''}.html"
+
+
+NEW_UNIT_SHEET = "checklists/new-unit.html"
 
 
 def property_uri(prop: m.Property) -> str:
@@ -85,9 +90,7 @@ class SiteBuilder:
         self.portfolio = loaded.portfolio
         self.as_of = as_of
         self.findings = findings
-        by_device: dict[str, list[Finding]] = {}
-        for finding in findings:
-            by_device.setdefault(finding.device, []).append(finding)
+        self.by_device = by_device = findings_by_device(findings)
         self.views = {uid: DeviceView(loc, by_device.get(uid, []), self.portfolio.events_for(uid),
                                       self.portfolio.retired_on(uid))
                       for uid, loc in self.portfolio.devices.items()}
@@ -118,17 +121,23 @@ class SiteBuilder:
 
         return self.env.get_template(template).render(
             here=here, link=link, device_link=device_link, where=where, views=self.views,
-            unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor, **context)
+            unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor,
+            checklist_uri=checklist_uri, new_unit_sheet=NEW_UNIT_SHEET, **context)
 
     # ---- pages -------------------------------------------------------------------------
     def pages(self) -> list[Page]:
-        pages = [self.overview(), self.rules(), self.about()]
+        pages = [self.overview(), self.rules(), self.about(), Page(NEW_UNIT_SHEET, blank_unit_html(), static=True)]
         for prop in self.portfolio.properties:
             pages.append(Page(property_uri(prop), self._render("property.md.j2", property_uri(prop), prop=prop,
                                                                  units=[self._unit_summary(prop, u) for u in prop.units],
                                                                  devices=self._active(prop.units))))
-            for unit in prop.units:
+            sheets = [unit_sheet(self.portfolio, self.by_device, prop, unit, self.as_of) for unit in prop.units]
+            pages.append(Page(checklist_uri(prop), inspection_html(sheets, self.as_of), static=True))
+            for unit, sheet in zip(prop.units, sheets):
                 pages.append(self.unit_page(prop, unit))
+                pages.append(Page(checklist_uri(prop, unit), inspection_html([sheet], self.as_of), static=True))
+                pages.append(Page(checklist_uri(prop, unit, monthly=True), monthly_card_html(sheet, self.as_of),
+                                  static=True))
         return pages
 
     def _active(self, units) -> list[DeviceView]:
@@ -199,10 +208,6 @@ def front_title(text: str) -> Markup:
 def anchor(name: str) -> Markup:
     """A Markdown attr_list id for a heading (names are validated ids, safe as they are)."""
     return Markup("{#" + name + "}")
-
-
-def kind_label(kind: m.Kind) -> str:
-    return kind.label[0].upper() + kind.label[1:]
 
 
 def when(finding: Finding | None, as_of: date) -> str:
