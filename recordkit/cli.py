@@ -159,6 +159,224 @@ def checklist(records_dir: str, property_id: str | None, unit_id: str | None, as
     click.echo(f"Wrote {target}")
 
 
+records_option = click.option("--records", "records_dir", default="records", show_default=True,
+                              type=click.Path(file_okay=False), help="The records folder.")
+file_option = click.option("--file", "log_file", metavar="PATH",
+                           help="Append to this file, relative to the records folder "
+                                "(default: log/YEAR.yaml for the event's year).")
+
+
+def _today() -> date:
+    return date.today()
+
+
+def _write(records_dir: str, events, log_file: str | None) -> None:
+    from pathlib import Path
+
+    from .intake import IntakeError, write_events
+    from .logbook import LogWriteError, MaybeWritten
+
+    try:
+        written = write_events(Path(records_dir), events, log_file)
+    except (IntakeError, LogWriteError) as exc:
+        click.echo(f"Not written: {exc}", err=True)
+        sys.exit(EXIT_ERRORS)
+    except MaybeWritten as exc:
+        click.echo(str(exc), err=True)
+        sys.exit(EXIT_ERRORS)
+    for path, count in written.items():
+        click.echo(f"Appended {count} event(s) to {path}")
+
+
+@main.command("log")
+@click.argument("words", nargs=-1, required=True, metavar="[DEVICE] ACTION")
+@click.option("--unit", "unit_uid", metavar="PROPERTY/UNIT",
+              help="Log ACTION for every device in service in this unit (a walk-round); then give no DEVICE.")
+@click.option("--result", type=click.Choice(["pass", "fail"]), help="Required for a test.")
+@click.option("--date", "when", type=click.DateTime(formats=["%Y-%m-%d"]), metavar="YYYY-MM-DD",
+              help="When it was done (default: today). Not in the future.")
+@click.option("--by", default="", help="Who did it.")
+@click.option("--note", default="", help="A note, e.g. what was done about a failure.")
+@records_option
+@file_option
+def log_command(words, unit_uid, result, when, by, note, records_dir, log_file) -> None:
+    """Record a test, battery change, replacement, cleaning, inspection or note.
+
+    DEVICE is property/unit/device; ACTION is test, battery, replace, clean,
+    inspect or note. The event is checked against the records first (device
+    exists and is in service, date not in the future, result given for a
+    test), then appended without changing a byte of the file's existing text.
+
+    Examples:  recordkit log tansy-house/flat-1/landing-smoke test --result pass --by tenant
+               recordkit log --unit tansy-house/flat-1 test --result pass"""
+    from .checks import evaluate
+    from .errors import Source
+    from .intake import IntakeError, check_new_events, unit_devices
+    from .logbook import NewEvent
+    from .model import Action, Result
+
+    today = _today()
+    day = when.date() if when else today
+    if unit_uid:
+        if len(words) != 1:
+            raise click.UsageError("with --unit give only the ACTION, e.g. --unit tansy-house/flat-1 test")
+        action_word = words[0]
+    elif len(words) == 2:
+        action_word = words[1]
+    else:
+        raise click.UsageError("give DEVICE ACTION (or --unit PROPERTY/UNIT ACTION)")
+    try:
+        action = Action(action_word)
+    except ValueError:
+        raise click.BadParameter(f"{action_word!r}; choose from {', '.join(a.value for a in Action)}",
+                                 param_hint="ACTION") from None
+    loaded = _load(records_dir, today)
+    if loaded.problems:
+        click.echo("Not written: fix the records first.", err=True)
+        sys.exit(EXIT_ERRORS)
+    try:
+        devices = unit_devices(loaded, unit_uid, day) if unit_uid else [words[0]]
+    except IntakeError as exc:
+        raise click.UsageError(str(exc)) from None
+    if not devices:
+        raise click.UsageError(f"no device in service in '{unit_uid}' on {day}")
+    events = [NewEvent(day, uid, action, Result(result) if result else None, by, note) for uid in devices]
+    problems = check_new_events(loaded, [(e, Source(e.device, 0)) for e in events], today)
+    if problems:
+        for problem in problems:
+            click.echo(f"Not written: {problem}", err=True)
+        sys.exit(EXIT_ERRORS)
+    _write(records_dir, events, log_file)
+    reloaded = _load(records_dir, today)
+    findings = [f for f in evaluate(reloaded.portfolio, reloaded.policy, today) if f.device in devices]
+    for event in events:
+        click.echo(f"  {event.date} {event.device}: {event.action}"
+                   + (f" {event.result}" if event.result else "") + (f" by {event.by}" if event.by else ""))
+        nxt = sorted((f for f in findings if f.device == event.device), key=lambda f: f.due or date.min)
+        if nxt:
+            click.echo("    next: " + "; ".join(f"{f.task} {f.due or 'now'} ({f.state})" for f in nxt))
+
+
+@main.command("import")
+@click.argument("csv_file", type=click.Path(exists=True, dir_okay=False))
+@records_option
+@click.option("--dayfirst", is_flag=True, help="Read 01/12/2026 as 1 December (default: as January 12).")
+@click.option("--skip-bad", is_flag=True, help="Import the good rows even when some rows are bad.")
+@click.option("--dry-run", is_flag=True, help="Show what would be added; write nothing.")
+@file_option
+def import_command(csv_file, records_dir, dayfirst, skip_bad, dry_run, log_file) -> None:
+    """Import events from a spreadsheet's CSV (columns: date, device, action, result, by, note).
+
+    Header names are matched ignoring case. Dates may be ISO (2026-12-01) or as
+    a spreadsheet writes them (MM/DD/YYYY, or DD/MM/YYYY with --dayfirst). Each
+    bad row is reported as file.csv:row: message, and nothing is written when
+    any row is bad unless --skip-bad. Rows already in the records are skipped,
+    so importing the same sheet twice adds nothing."""
+    from pathlib import Path
+
+    from .intake import IntakeError, read_csv
+
+    today = _today()
+    loaded = _load(records_dir, today)
+    if loaded.problems:
+        click.echo("Not imported: fix the records first.", err=True)
+        sys.exit(EXIT_ERRORS)
+    try:
+        sheet = read_csv(Path(csv_file), loaded, today, dayfirst)
+    except IntakeError as exc:
+        click.echo(str(exc), err=True)
+        sys.exit(EXIT_ERRORS)
+    for problem in sheet.problems:
+        click.echo(problem, err=True)
+    summary = (f"{len(sheet.events)} new event(s), {sheet.duplicates} already recorded, "
+               f"{len(sheet.bad_rows)} bad row(s)")
+    if sheet.problems and not (skip_bad and sheet.bad_rows):
+        click.echo(f"Nothing imported: {summary}. Fix the rows (or use --skip-bad).", err=True)
+        sys.exit(EXIT_ERRORS)
+    events = [event for event, _ in sheet.events]
+    if dry_run:
+        for event in events:
+            click.echo(f"  would add: - {event.as_yaml()}")
+        click.echo(f"Dry run: {summary}; nothing written.")
+        return
+    _write(records_dir, events, log_file)
+    click.echo(f"Imported: {summary}.")
+
+
+@main.command("export")
+@records_argument
+@as_of_option
+@click.option("--format", "fmt", type=click.Choice(["csv", "json"]), default="csv", show_default=True)
+@click.option("--table", type=click.Choice(["devices", "events"]), default="devices", show_default=True,
+              help="For CSV: devices in service with their next tasks, or every event (the import's columns).")
+@click.option("-o", "--out", type=click.Path(dir_okay=False, writable=True), help="Write here (default: stdout).")
+def export_command(records_dir, as_of, fmt, table, out) -> None:
+    """Export devices with their next tasks, and events, as CSV or JSON."""
+    import csv
+    import io
+
+    from .exports import DEVICE_COLUMNS, device_rows, export_json
+    from .intake import events_csv_rows
+
+    day = _as_of(as_of)
+    loaded = _load(records_dir, day)
+    if loaded.problems:
+        sys.exit(EXIT_ERRORS)
+    findings = evaluate(loaded.portfolio, loaded.policy, day)
+    if fmt == "json":
+        text = json.dumps(export_json(loaded.portfolio, findings, day), indent=1, ensure_ascii=False) + "\n"
+    else:
+        buffer = io.StringIO()
+        writer = csv.writer(buffer, lineterminator="\n")
+        if table == "events":
+            writer.writerows(events_csv_rows(loaded.portfolio))
+        else:
+            writer.writerow(DEVICE_COLUMNS)
+            writer.writerows([row[c] for c in DEVICE_COLUMNS] for row in device_rows(loaded.portfolio, findings, day))
+        text = buffer.getvalue()
+    _emit(text, out)
+
+
+@main.command("calendar")
+@records_argument
+@as_of_option
+@click.option("-o", "--out", required=True, type=click.Path(dir_okay=False, writable=True),
+              help="The .ics file to write.")
+def calendar_command(records_dir, as_of, out) -> None:
+    """Write every task (replacements, tests, batteries, fixes) as calendar events with reminders.
+
+    Each event keeps the same UID from one export to the next, so importing a
+    newer file into a calendar updates the events instead of adding copies."""
+    from .exports import calendar
+
+    day = _as_of(as_of)
+    loaded = _load(records_dir, day)
+    if loaded.problems:
+        sys.exit(EXIT_ERRORS)
+    findings = evaluate(loaded.portfolio, loaded.policy, day)
+    with open(out, "wb") as handle:
+        handle.write(calendar(loaded.portfolio, findings, day).to_ical())
+    click.echo(f"Wrote {len(findings)} task(s) to {out}")
+
+
+@main.command("schema")
+@click.option("-o", "--out", type=click.Path(dir_okay=False, writable=True), help="Write here (default: stdout).")
+def schema_command(out) -> None:
+    """Print the JSON Schema of the record files, for editors that check YAML as you type."""
+    from .schema import record_schema
+
+    _emit(json.dumps(record_schema(), indent=2) + "\n", out)
+
+
+def _emit(text: str, out: str | None) -> None:
+    if out:
+        with open(out, "w", encoding="utf-8", newline="") as handle:
+            handle.write(text)
+        click.echo(f"Wrote {out}", err=True)
+    else:
+        click.echo(text, nl=False)
+
+
 config_option = click.option("--config", "config_file", default="mkdocs.yml", show_default=True,
                              type=click.Path(exists=True, dir_okay=False),
                              help="The MkDocs configuration that uses the recordkit plugin.")

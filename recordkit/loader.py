@@ -232,6 +232,7 @@ class _Builder:
 
     # ---- events --------------------------------------------------------------------------
     def _event(self, tree: Any, path: str, line: int) -> m.Event | None:
+        before = len(self.problems)
         f = Fields(tree, path, self.problems, "event", line)
         if not f.ok:
             return None
@@ -239,14 +240,10 @@ class _Builder:
         device = f.text("device", required=True)
         action = f.choice("action", m.Action, required=True)
         result = f.choice("result", m.Result)
-        if action is m.Action.TEST and result is None and "result" not in f.map:
-            f.error(None, "a test needs 'result: pass' or 'result: fail'")
-        if action and action is not m.Action.TEST and result is not None:
-            f.error("result", f"only a test has a result (this is a '{action}')")
         event = m.Event(when or date.min, device, action or m.Action.NOTE, f.source(), result,
                         by=f.text("by"), note=f.text("note"))
         f.finish()
-        return event if when and device and action else None
+        return event if len(self.problems) == before else None  # unreadable: not checked further
 
     # ---- cross-references ----------------------------------------------------------------
     def finish(self, as_of: date) -> m.Portfolio:
@@ -266,21 +263,31 @@ class _Builder:
         return portfolio
 
     def _check_event(self, event: m.Event, portfolio: m.Portfolio, as_of: date) -> None:
-        add = lambda message: self.problems.add(event.source, f"event: {message}")  # noqa: E731
-        if event.date > as_of:
-            add(f"dated {event.date}, after the as-of date {as_of} (a future event?)")
-        located = portfolio.devices.get(event.device)
-        if located is None:
-            add(f"no device '{event.device}' (write property/unit/device)"
-                + _suggest(event.device, portfolio.devices))
-            return
-        device = located.device
-        if event.date < device.installed:
-            add(f"dated {event.date}, before '{event.device}' was installed ({device.installed})")
-        retired = portfolio.retired_on(event.device)
-        if retired and event.date > retired:
-            add(f"dated {event.date}, after '{event.device}' was retired ({retired}); "
-                "log it against the device that replaced it")
+        for message in event_problems(event, portfolio, as_of):
+            self.problems.add(event.source, f"event: {message}")
+
+
+def event_problems(event: m.Event, portfolio: m.Portfolio, as_of: date) -> list[str]:
+    """What is wrong with an event against the records: the same rules for files, `log` and `import`."""
+    problems = []
+    if event.date > as_of:
+        problems.append(f"dated {event.date}, after the as-of date {as_of} (a future event?)")
+    if event.action is m.Action.TEST and event.result is None:
+        problems.append("a test needs 'result: pass' or 'result: fail'")
+    if event.action is not m.Action.TEST and event.result is not None:
+        problems.append(f"only a test has a result (this is a '{event.action}')")
+    located = portfolio.devices.get(event.device)
+    if located is None:
+        return problems + [f"no device '{event.device}' (write property/unit/device)"
+                           + _suggest(event.device, portfolio.devices)]
+    device = located.device
+    if event.date < device.installed:
+        problems.append(f"dated {event.date}, before '{event.device}' was installed ({device.installed})")
+    retired = portfolio.retired_on(event.device)
+    if retired and event.date > retired:
+        problems.append(f"dated {event.date}, after '{event.device}' was retired ({retired}); "
+                        "log it against the device that replaced it")
+    return problems
 
 
 def _suggest(wrong: str, known) -> str:

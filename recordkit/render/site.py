@@ -18,7 +18,9 @@ from markupsafe import Markup
 from .. import model as m
 from ..cautions import CAUTIONS, SHORT
 from ..checks import TASK_ORDER, Finding
+from ..exports import calendar
 from ..loader import Loaded
+from ..schema import record_schema
 from ..schedule import State
 from .checklist import blank_unit_html, findings_by_device, inspection_html, monthly_card_html, unit_sheet
 from .escape import md_text
@@ -42,6 +44,8 @@ def checklist_uri(prop: m.Property, unit: m.Unit | None = None, monthly: bool = 
 
 
 NEW_UNIT_SHEET = "checklists/new-unit.html"
+CALENDAR = "due.ics"
+SCHEMA = "records.schema.json"
 
 
 def property_uri(prop: m.Property) -> str:
@@ -122,11 +126,14 @@ class SiteBuilder:
         return self.env.get_template(template).render(
             here=here, link=link, device_link=device_link, where=where, views=self.views,
             unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor,
-            checklist_uri=checklist_uri, new_unit_sheet=NEW_UNIT_SHEET, **context)
+            checklist_uri=checklist_uri, new_unit_sheet=NEW_UNIT_SHEET, calendar_file=CALENDAR,
+            schema_file=SCHEMA, **context)
 
     # ---- pages -------------------------------------------------------------------------
     def pages(self) -> list[Page]:
-        pages = [self.overview(), self.rules(), self.about(), Page(NEW_UNIT_SHEET, blank_unit_html(), static=True)]
+        pages = [self.overview(), self.rules(), self.about(), Page(NEW_UNIT_SHEET, blank_unit_html(), static=True),
+                 Page(CALENDAR, calendar(self.portfolio, self.findings, self.as_of).to_ical().decode(), static=True),
+                 Page(SCHEMA, json.dumps(record_schema(), indent=2) + "\n", static=True)]
         for prop in self.portfolio.properties:
             pages.append(Page(property_uri(prop), self._render("property.md.j2", property_uri(prop), prop=prop,
                                                                  units=[self._unit_summary(prop, u) for u in prop.units],

@@ -1,0 +1,165 @@
+"""Events coming in: from the `log` command or a spreadsheet's CSV, checked, then appended.
+
+Every event is checked against the loaded records with the same rules the
+loader applies to hand-written events (`event_problems`), before anything is
+written.
+"""
+from __future__ import annotations
+
+import csv
+import re
+from dataclasses import dataclass, field
+from datetime import date
+from pathlib import Path
+
+from dateutil import parser as date_parser
+
+from . import model as m
+from .errors import Source
+from .loader import Loaded, event_problems
+from .logbook import NewEvent, append_events, default_log_file
+
+CSV_COLUMNS = ("date", "device", "action", "result", "by", "note")
+REQUIRED_COLUMNS = ("date", "device", "action")
+_ISO = re.compile(r"^\d{4}-\d{2}-\d{2}$")
+
+
+class IntakeError(Exception):
+    """Nothing was written; the message says why."""
+
+
+def as_model_event(event: NewEvent, source: Source) -> m.Event:
+    return m.Event(event.date, event.device, event.action, source, event.result, event.by, event.note)
+
+
+def check_new_events(loaded: Loaded, events: list[tuple[NewEvent, Source]], today: date) -> list[str]:
+    """Problems with new events, each as 'source: message'."""
+    return [f"{source}: {message}" for event, source in events
+            for message in event_problems(as_model_event(event, source), loaded.portfolio, today)]
+
+
+def unit_devices(loaded: Loaded, unit_uid: str, when: date) -> list[str]:
+    """Device uids of every device of a unit in service on a date (for a walk-round)."""
+    found = [loc for loc in loaded.portfolio.devices.values() if loc.unit.uid == unit_uid]
+    if not found and not any(u.uid == unit_uid for p in loaded.portfolio.properties for u in p.units):
+        raise IntakeError(f"no unit '{unit_uid}' (write property/unit)")
+    return [loc.device.uid for loc in found
+            if (retired := loaded.portfolio.retired_on(loc.device.uid)) is None or retired > when]
+
+
+def target_file(records_dir: Path, named: str | None, when: date) -> Path:
+    """The log file to append to: the one named (relative to the records folder, and inside it),
+    or log/YEAR.yaml for the event's year."""
+    if not named:
+        return default_log_file(records_dir, when)
+    path = records_dir / named
+    if not path.resolve().is_relative_to(records_dir.resolve()):
+        raise IntakeError(f"{named}: the log file must be inside the records folder {records_dir}")
+    if path.suffix not in (".yaml", ".yml"):
+        raise IntakeError(f"{named}: a log file name ends in .yaml")
+    return path
+
+
+def write_events(records_dir: Path, events: list[NewEvent], named: str | None) -> dict[Path, int]:
+    """Append events, one atomic append per target file. Returns how many went where."""
+    by_file: dict[Path, list[NewEvent]] = {}
+    for event in events:
+        by_file.setdefault(target_file(records_dir, named, event.date), []).append(event)
+    for path, batch in by_file.items():
+        append_events(path, batch)
+    return {path: len(batch) for path, batch in by_file.items()}
+
+
+# ---- CSV ----------------------------------------------------------------------------------
+
+@dataclass
+class CsvImport:
+    events: list[tuple[NewEvent, Source]] = field(default_factory=list)
+    problems: list[str] = field(default_factory=list)
+    bad_rows: set[int] = field(default_factory=set)
+    duplicates: int = 0
+
+
+def parse_sheet_date(text: str, dayfirst: bool) -> date:
+    """ISO dates as they are; otherwise as a spreadsheet writes them (MM/DD/YYYY, or DD/MM/YYYY
+    with dayfirst). ISO is matched first because dateutil with dayfirst reads 2026-12-01 as 12 Jan."""
+    text = text.strip()
+    if _ISO.match(text):
+        return date.fromisoformat(text)
+    parsed = date_parser.parse(text, dayfirst=dayfirst, yearfirst=False)
+    if (parsed.hour, parsed.minute, parsed.second) != (0, 0, 0):
+        raise ValueError("has a time of day; give the date only")
+    return parsed.date()
+
+
+def read_csv(path: Path, loaded: Loaded, today: date, dayfirst: bool = False) -> CsvImport:
+    result = CsvImport()
+    shown = str(path)
+    try:
+        text = path.read_bytes().decode("utf-8-sig")
+    except UnicodeDecodeError:
+        result.problems.append(f"{shown}:1: not UTF-8 text; save the sheet as 'CSV UTF-8'")
+        return result
+    except OSError as exc:
+        raise IntakeError(f"{shown}: cannot read: {exc.strerror}") from None
+    reader = csv.reader(text.splitlines())
+    header = [h.strip().lower() for h in next(reader, [])]
+    missing = [c for c in REQUIRED_COLUMNS if c not in header]
+    unknown = [h for h in header if h and h not in CSV_COLUMNS]
+    if missing or unknown:
+        result.problems.append(f"{shown}:1: header needs columns {', '.join(CSV_COLUMNS)} (date, device and "
+                               f"action required); missing: {', '.join(missing) or 'none'}; "
+                               f"unknown: {', '.join(unknown) or 'none'}")
+        return result
+    existing = {(e.date, e.device, e.action, e.result, e.by, e.note) for e in loaded.portfolio.events}
+    for row_number, row in enumerate(reader, start=2):
+        if not any(cell.strip() for cell in row):
+            continue
+        cells = {name: (row[i].strip() if i < len(row) else "") for i, name in enumerate(header)}
+        source = Source(shown, row_number)
+        event, messages = _row_event(cells, dayfirst)
+        if event:
+            key = (event.date, event.device, event.action, event.result, event.by, event.note)
+            if key in existing:
+                result.duplicates += 1
+                continue
+            existing.add(key)
+            messages += event_problems(as_model_event(event, source), loaded.portfolio, today)
+        if messages:
+            result.bad_rows.add(row_number)
+            result.problems += [f"{source}: {message}" for message in messages]
+        else:
+            result.events.append((event, source))
+    return result
+
+
+def _row_event(cells: dict[str, str], dayfirst: bool) -> tuple[NewEvent | None, list[str]]:
+    messages = []
+    when = action = result = None
+    try:
+        when = parse_sheet_date(cells["date"], dayfirst)
+    except (ValueError, OverflowError) as exc:
+        messages.append(f"date {cells['date']!r}: {exc}")
+    try:
+        action = m.Action(cells["action"].lower())
+    except ValueError:
+        messages.append(f"action {cells['action']!r}; expected one of: {', '.join(a.value for a in m.Action)}")
+    if cells.get("result"):
+        try:
+            result = m.Result(cells["result"].lower())
+        except ValueError:
+            messages.append(f"result {cells['result']!r}; expected pass or fail")
+    if not cells["device"]:
+        messages.append("device is empty")
+    if messages:
+        return None, messages
+    return NewEvent(when, cells["device"], action, result, cells.get("by", ""), cells.get("note", "")), []
+
+
+def events_csv_rows(portfolio: m.Portfolio) -> list[list[str]]:
+    """Every event as CSV rows with the import's columns (so an export imports back)."""
+    rows = [list(CSV_COLUMNS)]
+    for event in sorted(portfolio.events, key=lambda e: e.date):
+        rows.append([event.date.isoformat(), event.device, str(event.action),
+                     str(event.result) if event.result else "", event.by, event.note])
+    return rows

@@ -1,0 +1,196 @@
+"""Appending events to a log file without losing a byte or an event.
+
+Promises (see the reliability notes): the user's existing text is kept byte for
+byte and new events are appended as text; a reader or a crash sees the old file
+or the old file plus every new event, never half of one (temp file in the same
+folder, fsync, atomic rename, folder fsync); one writer at a time through a
+lock on a *separate* lock file (locking the data file and then replacing it
+would lose events); the result is re-read and refused unless it holds exactly
+the old data plus the new events.
+"""
+from __future__ import annotations
+
+import errno
+import fcntl
+import json
+import os
+from contextlib import contextmanager
+from dataclasses import dataclass
+from datetime import date
+from pathlib import Path
+from typing import Iterator
+
+from . import model as m
+from .errors import Problems
+from .yamltree import YList, YMap, read_yaml
+
+
+class LogWriteError(Exception):
+    """The events were not written; the file is as it was. The message says why and what to do."""
+
+
+class MaybeWritten(Exception):
+    """The rename happened but a later step failed: the events are probably on disk. Check."""
+
+
+@dataclass(frozen=True)
+class NewEvent:
+    date: date
+    device: str
+    action: m.Action
+    result: m.Result | None = None
+    by: str = ""
+    note: str = ""
+
+    def as_data(self) -> dict:
+        data = {"date": self.date.isoformat(), "device": self.device, "action": str(self.action)}
+        if self.result:
+            data["result"] = str(self.result)
+        if self.by:
+            data["by"] = self.by
+        if self.note:
+            data["note"] = self.note
+        return data
+
+    def as_yaml(self) -> str:
+        """One flow mapping on one line. Free text is written as a JSON string, which is
+        also a valid YAML double-quoted string, so no character can break the line."""
+        parts = [f"date: {self.date.isoformat()}", f"device: {self.device}", f"action: {self.action}"]
+        if self.result:
+            parts.append(f"result: {self.result}")
+        if self.by:
+            parts.append(f"by: {json.dumps(self.by, ensure_ascii=False)}")
+        if self.note:
+            parts.append(f"note: {json.dumps(self.note, ensure_ascii=False)}")
+        return "{" + ", ".join(parts) + "}"
+
+
+def default_log_file(records_dir: Path, when: date) -> Path:
+    return records_dir / "log" / f"{when.year}.yaml"
+
+
+@contextmanager
+def locked(path: Path) -> Iterator[None]:
+    """Hold an exclusive lock on PATH.lock (released by the kernel if the process dies)."""
+    lock_path = path.with_name(path.name + ".lock")
+    with open(lock_path, "a") as handle:
+        fcntl.flock(handle, fcntl.LOCK_EX)
+        try:
+            yield
+        finally:
+            fcntl.flock(handle, fcntl.LOCK_UN)
+
+
+def append_events(path: Path, events: list[NewEvent]) -> None:
+    """Append events to a log file (created if missing). Raises LogWriteError or MaybeWritten."""
+    if not events:
+        return
+    path.parent.mkdir(parents=True, exist_ok=True)
+    with locked(path):
+        _sweep_temp_files(path)
+        old = path.read_bytes() if path.exists() else None
+        new = _appended(old, path, events)
+        _replace_atomically(path, new)
+
+
+def _appended(old: bytes | None, path: Path, events: list[NewEvent]) -> bytes:
+    lines = "".join
+    if old is None or not old.strip():
+        header = old or b""
+        body = "# Maintenance log, appended to by `recordkit log` and `recordkit import`.\nevents:\n"
+        new = header + body.encode() + lines(f"  - {e.as_yaml()}\n" for e in events).encode()
+        old_events: list = []
+    else:
+        tree = _parse(old, path)
+        dash = _dash_column(tree, old, path)
+        old_events = list(tree.get("events") or [])
+        tail = b"" if old.endswith(b"\n") else b"\n"
+        new = old + tail + lines(f"{' ' * dash}- {e.as_yaml()}\n" for e in events).encode()
+    # Read the result back: it must be exactly the old data plus the new events.
+    check = _parse(new, path)
+    expected = old_events + [e.as_data() for e in events]
+    if _plain(check.get("events")) != _plain(expected):
+        raise LogWriteError(f"{path}: appending would not give the old events plus the new ones; "
+                            "nothing written (is the file's layout unusual?)")
+    return new
+
+
+def _parse(data: bytes, path: Path) -> YMap:
+    problems = Problems()
+    tree = read_yaml(data, str(path), problems)
+    if problems:
+        raise LogWriteError(f"{problems[0]}; fix the file first, nothing written")
+    if not isinstance(tree, YMap):
+        raise LogWriteError(f"{path}: not a records file (no top-level mapping); nothing written")
+    return tree
+
+
+def _dash_column(tree: YMap, data: bytes, path: Path) -> int:
+    """Where the new '- ' goes: the column of the existing items, when `events:` can take more."""
+    if "events" not in tree:
+        raise LogWriteError(f"{path}: has no 'events:' list; add 'events:' as its last key, or log to "
+                            "another file (e.g. records/log/YEAR.yaml)")
+    if list(tree)[-1] != "events":
+        raise LogWriteError(f"{path}: 'events:' is not the last key, so appending would put events under "
+                            "another key; move 'events:' to the end of the file, nothing written")
+    events = tree["events"]
+    if events is None:
+        return 2
+    if not isinstance(events, YList) or not events:
+        raise LogWriteError(f"{path}:{tree.line_of('events')}: 'events:' is not a block list ('- ' items); "
+                            "nothing written")
+    text_lines = data.decode("utf-8-sig").splitlines()
+    first_item = text_lines[events.item_lines[0] - 1]
+    dash = len(first_item) - len(first_item.lstrip(" "))
+    if not first_item[dash:].startswith("-"):
+        raise LogWriteError(f"{path}:{tree.key_lines['events']}: 'events:' is in flow style ([...]); "
+                            "write it as a block list to append, nothing written")
+    return dash
+
+
+def _plain(value):
+    if isinstance(value, dict):
+        return {k: _plain(v) for k, v in value.items()}
+    if isinstance(value, list):
+        return [_plain(v) for v in value]
+    return value
+
+
+def temp_name(path: Path) -> Path:
+    # Starts with a dot: the loader skips it; ends in .tmp: swept on the next write.
+    return path.with_name(f".{path.name}.{os.getpid()}.tmp")
+
+
+def _sweep_temp_files(path: Path) -> None:
+    """Remove temp files a killed writer left behind (we hold the lock: none is in use)."""
+    for stale in path.parent.glob(f".{path.name}.*.tmp"):
+        stale.unlink(missing_ok=True)
+
+
+def _replace_atomically(path: Path, data: bytes) -> None:
+    temp = temp_name(path)
+    try:
+        with open(temp, "wb") as handle:
+            handle.write(data)
+            handle.flush()
+            os.fsync(handle.fileno())
+        if path.exists():
+            os.chmod(temp, path.stat().st_mode & 0o7777)
+    except OSError as exc:
+        temp.unlink(missing_ok=True)
+        hint = " (disk full?)" if exc.errno == errno.ENOSPC else ""
+        raise LogWriteError(f"{path}: could not write{hint}: {exc.strerror}; nothing written") from None
+    try:
+        os.replace(temp, path)
+    except OSError as exc:
+        temp.unlink(missing_ok=True)
+        raise LogWriteError(f"{path}: could not replace the file: {exc.strerror}; nothing written") from None
+    try:
+        folder = os.open(path.parent, os.O_RDONLY)
+        try:
+            os.fsync(folder)
+        finally:
+            os.close(folder)
+    except OSError as exc:
+        raise MaybeWritten(f"{path}: written, but the folder could not be synced ({exc.strerror}); "
+                           "the events may have been recorded: check the file") from None
