@@ -1,0 +1,281 @@
+"""log, import, export, calendar and schema through the real entry point."""
+import csv
+import io
+import json
+import shutil
+from datetime import date
+
+import pytest
+
+from recordkit.errors import Problems
+from recordkit.loader import load_records
+from recordkit.schema import record_schema
+from recordkit.yamltree import read_yaml
+
+from .conftest import DEMO_AS_OF, DEMO_RECORDS, HOUSE, REPO, device_yaml, run_cli
+
+AS_OF = DEMO_AS_OF.isoformat()
+TODAY = date.today()
+
+
+@pytest.fixture
+def demo_copy(tmp_path):
+    target = tmp_path / "records"
+    shutil.copytree(DEMO_RECORDS, target)
+    return target
+
+
+def small_records(records, installed="2020-02-01"):
+    return records({"house.yaml": HOUSE
+                    + device_yaml(id="s1", kind="smoke", room="hall", power="battery", manufactured="2020-01",
+                                  installed=installed)
+                    + device_yaml(id="s2", kind="smoke", room="bed-1", power="sealed", manufactured="2020-01",
+                                  installed=installed)
+                    + device_yaml(id="old", kind="smoke", room="bed-1", power="sealed", manufactured="2010-01",
+                                  installed="2010-02-01", removed="2020-02-01")})
+
+
+# ---- log ------------------------------------------------------------------------------------
+
+def test_log_appends_and_prints_the_next_due_date(records):
+    folder = small_records(records)
+    result = run_cli("log", "test-house/main/s1", "test", "--result", "pass", "--by", "me", "--records", str(folder))
+    assert result.returncode == 0, result.stderr
+    log = folder / "log" / f"{TODAY.year}.yaml"
+    assert log.is_file()
+    events = load_records(folder, TODAY).portfolio.events
+    assert [(e.device, e.action, e.result, e.by, e.date) for e in events] == [
+        ("test-house/main/s1", "test", "pass", "me", TODAY)]
+    # US Fire Administration / NFPA: monthly tests -> the next test is a month after today
+    from dateutil.relativedelta import relativedelta
+    assert f"test {TODAY + relativedelta(months=1)}" in result.stdout
+
+
+def test_log_a_walk_round_for_every_device_in_service(records):
+    folder = small_records(records)
+    result = run_cli("log", "--unit", "test-house/main", "test", "--result", "pass", "--records", str(folder))
+    assert result.returncode == 0, result.stderr
+    devices = sorted(e.device for e in load_records(folder, TODAY).portfolio.events)
+    assert devices == ["test-house/main/s1", "test-house/main/s2"]  # not the retired one
+
+
+@pytest.mark.parametrize("args, words", [
+    (["test-house/main/s9", "test", "--result", "pass"], "no device 'test-house/main/s9'"),
+    (["test-house/main/s1", "test"], "a test needs 'result: pass'"),
+    (["test-house/main/s1", "clean", "--result", "pass"], "only a test has a result"),
+    (["test-house/main/old", "clean", "--date", "2021-01-01"], "after 'test-house/main/old' was retired"),
+    (["test-house/main/s1", "clean", "--date", "2099-01-01"], "a future event?"),
+    (["test-house/main/s1", "clean", "--file", "../outside.yaml"], "must be inside the records folder"),
+])
+def test_log_refuses_bad_events_and_writes_nothing(records, args, words):
+    folder = small_records(records)
+    before = sorted(p.name for p in folder.rglob("*"))
+    result = run_cli("log", *args, "--records", str(folder))
+    assert result.returncode == 1 and words in result.stderr, result.stderr
+    assert sorted(p.name for p in folder.rglob("*")) == before
+
+
+def test_log_usage_errors(records):
+    folder = small_records(records)
+    assert run_cli("log", "test-house/main/s1", "paint", "--records", str(folder)).returncode == 2
+    assert run_cli("log", "--unit", "test-house/nowhere", "clean", "--records", str(folder)).returncode == 2
+
+
+# ---- import ---------------------------------------------------------------------------------
+
+def write_csv(path, text):
+    path.write_text(text, encoding="utf-8")
+    return path
+
+
+def test_import_matches_headers_any_case_and_reads_spreadsheet_dates(records, tmp_path):
+    folder = small_records(records)
+    sheet = write_csv(tmp_path / "log.csv", "Date,DEVICE,Action,Result,By,Note\n"
+                      "2026-03-01,test-house/main/s1,test,pass,ann,\n"
+                      "03/04/2026,test-house/main/s1,battery,,ann,new 9V\n"
+                      "\n")
+    result = run_cli("import", str(sheet), "--records", str(folder))
+    assert result.returncode == 0, result.stderr
+    events = load_records(folder, TODAY).portfolio.events
+    # MM/DD/YYYY by default: 03/04/2026 is 4 March (dateutil's default month-first reading)
+    assert sorted((e.date, e.action) for e in events) == [(date(2026, 3, 1), "test"), (date(2026, 3, 4), "battery")]
+    again = run_cli("import", str(sheet), "--records", str(folder))
+    assert again.returncode == 0 and "0 new event(s), 2 already recorded" in again.stdout
+    assert len(load_records(folder, TODAY).portfolio.events) == 2
+
+
+def test_import_dayfirst(records, tmp_path):
+    folder = small_records(records)
+    sheet = write_csv(tmp_path / "log.csv", "date,device,action\n03/04/2026,test-house/main/s1,clean\n")
+    assert run_cli("import", str(sheet), "--dayfirst", "--records", str(folder)).returncode == 0
+    # with --dayfirst 03/04/2026 is 3 April (dateutil dayfirst=True)
+    assert [e.date for e in load_records(folder, TODAY).portfolio.events] == [date(2026, 4, 3)]
+
+
+BAD_SHEET = ("date,device,action,result\n"
+             "2026-03-01,test-house/main/s1,test,pass\n"
+             "2026-02-30,test-house/main/s1,test,pass\n"
+             "2026-03-02,test-house/main/nope,clean,\n"
+             "2026-03-03,test-house/main/s1,test,\n")
+
+
+def test_import_reports_each_bad_row_and_writes_nothing(records, tmp_path):
+    folder = small_records(records)
+    sheet = write_csv(tmp_path / "bad.csv", BAD_SHEET)
+    result = run_cli("import", str(sheet), "--records", str(folder))
+    assert result.returncode == 1
+    assert f"{sheet}:3: date '2026-02-30'" in result.stderr
+    assert f"{sheet}:4: no device 'test-house/main/nope'" in result.stderr
+    assert f"{sheet}:5: a test needs 'result: pass'" in result.stderr
+    assert not (folder / "log").exists()
+
+
+def test_import_skip_bad_and_dry_run(records, tmp_path):
+    folder = small_records(records)
+    sheet = write_csv(tmp_path / "bad.csv", BAD_SHEET)
+    dry = run_cli("import", str(sheet), "--skip-bad", "--dry-run", "--records", str(folder))
+    assert dry.returncode == 0 and "would add: - {date: 2026-03-01" in dry.stdout and not (folder / "log").exists()
+    real = run_cli("import", str(sheet), "--skip-bad", "--records", str(folder))
+    assert real.returncode == 0 and "1 new event(s)" in real.stdout
+    assert len(load_records(folder, TODAY).portfolio.events) == 1
+
+
+def test_import_bad_header(records, tmp_path):
+    folder = small_records(records)
+    sheet = write_csv(tmp_path / "x.csv", "when,device,what\n2026-01-01,a/b/c,clean\n")
+    result = run_cli("import", str(sheet), "--records", str(folder))
+    assert result.returncode == 1 and f"{sheet}:1: header needs columns" in result.stderr
+
+
+# ---- export, round trip ---------------------------------------------------------------------
+
+def test_csv_import_round_trips_the_export(demo_copy, tmp_path):
+    exported = run_cli("export", str(demo_copy), "--as-of", AS_OF, "--format", "csv", "--table", "events")
+    assert exported.returncode == 0
+    original = {(e.date, e.device, e.action, e.result, e.by, e.note)
+                for e in load_records(demo_copy, DEMO_AS_OF).portfolio.events}
+    shutil.rmtree(demo_copy / "log")  # the events live only in the log files
+    sheet = write_csv(tmp_path / "events.csv", exported.stdout)
+    result = run_cli("import", str(sheet), "--records", str(demo_copy))
+    assert result.returncode == 0, result.stderr
+    reloaded = load_records(demo_copy, DEMO_AS_OF)
+    assert reloaded.problems == []
+    assert {(e.date, e.device, e.action, e.result, e.by, e.note) for e in reloaded.portfolio.events} == original
+    assert len(reloaded.portfolio.events) == len(original)
+
+
+def test_device_export_agrees_with_status():
+    status = json.loads(run_cli("status", "records", "--as-of", AS_OF, "--format", "json").stdout)
+    rows = list(csv.DictReader(io.StringIO(run_cli("export", "records", "--as-of", AS_OF).stdout)))
+    test_due = {i["device"]: i["due"] for i in status["items"] if i["task"] == "test"}
+    assert {r["device"]: r["test_due"] for r in rows} == test_due
+    exported = json.loads(run_cli("export", "records", "--as-of", AS_OF, "--format", "json").stdout)
+    assert len(exported["devices"]) == len(rows) and len(exported["events"]) == len(
+        load_records(DEMO_RECORDS, DEMO_AS_OF).portfolio.events)
+
+
+# ---- calendar ---------------------------------------------------------------------------------
+
+def read_ics(path):
+    from icalendar import Calendar
+
+    return Calendar.from_ical(path.read_bytes())
+
+
+def test_calendar_has_the_same_tasks_and_dates_as_status(tmp_path):
+    out = tmp_path / "due.ics"
+    assert run_cli("calendar", "records", "--as-of", AS_OF, "-o", str(out)).returncode == 0
+    status = json.loads(run_cli("status", "records", "--as-of", AS_OF, "--format", "json").stdout)
+    expected = {(i["device"], i["task"], i["due"] or "unknown") for i in status["items"]}
+    events = list(read_ics(out).walk("VEVENT"))
+    found = {(str(e["X-RECORDKIT-DEVICE"]), str(e["X-RECORDKIT-TASK"]), str(e["X-RECORDKIT-DUE"])) for e in events}
+    assert found == expected and len(events) == len(expected)
+    for event in events:
+        due = str(event["X-RECORDKIT-DUE"])
+        start = event.decoded("DTSTART")
+        assert start == (DEMO_AS_OF if due == "unknown" else date.fromisoformat(due))
+        assert list(event.walk("VALARM")), "every task has a reminder"
+
+
+def test_calendar_uids_are_stable_so_reimport_updates(tmp_path):
+    first, second = tmp_path / "a.ics", tmp_path / "b.ics"
+    run_cli("calendar", "records", "--as-of", AS_OF, "-o", str(first))
+    run_cli("calendar", "records", "--as-of", "2026-12-20", "-o", str(second))
+    uids = lambda path: {str(e["UID"]): int(e["SEQUENCE"]) for e in read_ics(path).walk("VEVENT")}  # noqa: E731
+    a, b = uids(first), uids(second)
+    assert len(a) == len(list(read_ics(first).walk("VEVENT")))  # unique
+    assert set(a) == set(b)
+    assert all(b[uid] > a[uid] for uid in a)  # a later export supersedes the earlier one
+
+
+# ---- schema -----------------------------------------------------------------------------------
+
+def plain_tree(path):
+    problems = Problems()
+    tree = read_yaml(path.read_bytes(), str(path), problems)
+    assert not problems
+    return json.loads(json.dumps(tree))
+
+
+def test_demo_records_validate_against_the_schema():
+    import jsonschema
+
+    validator = jsonschema.Draft202012Validator(record_schema())
+    for path in DEMO_RECORDS.rglob("*.yaml"):
+        errors = list(validator.iter_errors(plain_tree(path)))
+        assert errors == [], (path, [e.message for e in errors])
+
+
+@pytest.mark.parametrize("change", [
+    lambda d: d["property"]["units"][0]["devices"][0].update(kind="smokey"),
+    lambda d: d["property"]["units"][0]["devices"][0].pop("manufactured"),
+    lambda d: d["property"]["units"][0]["devices"][0].update(colour="white"),
+    lambda d: d["property"]["units"][0].update(id="Flat 1"),
+    lambda d: d["property"]["units"][0]["rooms"][0].update(level="one"),
+])
+def test_a_broken_record_fails_the_schema(change):
+    import jsonschema
+
+    tree = plain_tree(DEMO_RECORDS / "tansy-house.yaml")
+    change(tree)
+    assert list(jsonschema.Draft202012Validator(record_schema()).iter_errors(tree))
+
+
+def test_broken_event_fails_the_schema():
+    import jsonschema
+
+    validator = jsonschema.Draft202012Validator(record_schema())
+    assert list(validator.iter_errors({"events": [{"date": "2026-01-01", "device": "a/b/c", "action": "test"}]}))
+    assert list(validator.iter_errors({"events": [{"date": "2026-01-01", "device": "a/b/c", "action": "clean",
+                                                   "result": "pass"}]}))
+    assert not list(validator.iter_errors({"events": [{"date": "2026-01-01", "device": "a/b/c", "action": "clean"}]}))
+
+
+def test_published_schema_file_is_up_to_date():
+    published = json.loads((REPO / "site_templates/assets/records.schema.json").read_text())
+    assert published == record_schema(), "run: recordkit schema -o site_templates/assets/records.schema.json"
+
+
+def test_schema_keys_match_what_the_loader_accepts(records):
+    # The loader lists the keys it accepts when it meets an unknown one; the schema must list the same.
+    schema = record_schema()["properties"]
+    prop = schema["property"]
+    unit = prop["properties"]["units"]["items"]
+    levels = {
+        "property": (prop, "property:\n  id: p\n  name: P\n  units: []\n  zzz: 1\n"),
+        "unit": (unit, "property:\n  id: p\n  name: P\n  units:\n    - {id: u, rooms: [], zzz: 1}\n"),
+        "room": (unit["properties"]["rooms"]["items"],
+                 "property:\n  id: p\n  name: P\n  units:\n    - id: u\n      rooms:\n"
+                 "        - {id: r, level: 0, use: hallway, zzz: 1}\n"),
+        "device": (unit["properties"]["devices"]["items"],
+                   "property:\n  id: p\n  name: P\n  units:\n    - id: u\n      rooms: [{id: r, level: 0, use: hallway}]\n"
+                   "      devices:\n        - {id: d, kind: leak, room: r, power: battery, installed: 2020-01-01, zzz: 1}\n"),
+        "event": (schema["events"]["items"], "events:\n  - {date: 2020-01-01, device: a/b/c, action: clean, zzz: 1}\n"),
+    }
+    for name, (sub_schema, text) in levels.items():
+        folder = records({f"{name}.yaml": text})
+        messages = [p.message for p in load_records(folder, DEMO_AS_OF).problems if "unknown key 'zzz'" in p.message]
+        assert messages, name
+        allowed = set(messages[0].split("allowed here: ")[1].rstrip(")").split(", "))
+        assert allowed == set(sub_schema["properties"]), name
+        shutil.rmtree(folder)
