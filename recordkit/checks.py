@@ -7,23 +7,25 @@ finding names the rule and the source that set its date.
 """
 from __future__ import annotations
 
+import hashlib
 from dataclasses import dataclass
 from datetime import date
 from typing import Callable, Iterable, Iterator
 
 from . import model as m
+from .coverage import COVERAGE_CHECKS
 from .errors import Source
 from .rules import Interval, Policy, Rule
 from .schedule import State, add, state_of
 
-Task = str  # "replace" | "test" | "battery" | "fix"
-TASK_ORDER = {"fix": 0, "replace": 1, "test": 2, "battery": 3}
+Task = str  # "replace" | "test" | "battery" | "fix" | "coverage" | "node"
+TASK_ORDER = {"coverage": 0, "fix": 1, "replace": 2, "test": 3, "battery": 4, "node": 5}
 
 
 @dataclass(frozen=True)
 class Finding:
-    device: str            # property/unit/device
-    kind: m.Kind
+    device: str            # property/unit/device; for a coverage gap, the unit (property/unit)
+    kind: m.Kind           # for a coverage gap, the kind of alarm the rule asks for
     task: Task
     due: date | None       # None: now, because the date it depends on is unknown
     state: State
@@ -31,10 +33,19 @@ class Finding:
     rule: str
     source: str
     local: bool            # the rule was set by the local policy file
-    record: Source         # where the device is defined
+    record: Source         # where the device (or unit) is defined
+    unit: str = ""         # property/unit
+
+    @property
+    def key(self) -> str:
+        """Stable across runs: the same task of the same device keeps its key when its date moves."""
+        if self.task in ("replace", "test", "battery", "fix"):
+            return f"{self.device}/{self.task}"
+        detail = self.due.isoformat() if self.due else hashlib.sha1(self.reason.encode()).hexdigest()[:10]
+        return f"{self.device}/{self.task}/{self.rule}/{detail}"
 
     def as_json(self) -> dict:
-        return {"device": self.device, "kind": str(self.kind), "task": self.task,
+        return {"device": self.device, "unit": self.unit, "kind": str(self.kind), "task": self.task,
                 "due": self.due.isoformat() if self.due else None, "state": str(self.state),
                 "reason": self.reason, "rule": self.rule, "source": self.source, "local": self.local,
                 "record": str(self.record)}
@@ -57,7 +68,7 @@ def _finding(located: m.Located, task: Task, due: date | None, as_of: date, rule
     device = located.device
     state = state_of(due, as_of, window) if window else State.OVERDUE
     return Finding(device.uid, device.kind, task, due, state, reason,
-                   rule.name, rule.source, rule.local, device.source)
+                   rule.name, rule.source, rule.local, device.source, located.unit.uid)
 
 
 def _last(events: Iterable[m.Event], *actions: m.Action) -> m.Event | None:
@@ -112,7 +123,9 @@ def test_due(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterator[Fi
     rule, window = policy["test_every"], policy.interval("due_soon_test")
     for located in active_devices(portfolio, as_of):
         device = located.device
-        last = _last(portfolio.events_for(device.uid), m.Action.TEST)
+        # a listening node's report of a real or test alarm shows it works, like a test
+        actions = (m.Action.TEST, m.Action.HEARD) if device.kind is m.Kind.LISTENING_NODE else (m.Action.TEST,)
+        last = _last(portfolio.events_for(device.uid), *actions)
         start, since = (last.date, f"last tested {last.date}") if last else (device.installed,
                                                                               f"never tested; installed {device.installed}")
         yield _finding(located, "test", add(start, rule.value), as_of, rule, window,
@@ -142,11 +155,65 @@ def failed_test(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterator
                            f"failed its test on {last.date}{note}; fix or replace, then test again")
 
 
-CHECKS: list[Check] = [replacement_due, test_due, battery_due, failed_test]
+def coverage_gaps(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterator[Finding]:
+    """Placement rules of the chosen rule set, per unit, from its rooms and the devices in service."""
+    in_service = {loc.device.uid for loc in active_devices(portfolio, as_of)}
+    for prop in portfolio.properties:
+        for unit in prop.units:
+            devices = [d for d in unit.devices if d.uid in in_service]
+            for rule in policy.coverage_rules:
+                for kind, reason in COVERAGE_CHECKS[rule.name](unit, devices):
+                    yield Finding(unit.uid, kind, "coverage", None, State.OVERDUE, reason, rule.name,
+                                  rule.source, rule.local, unit.source, unit.uid)
+
+
+def listening_node_findings(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterator[Finding]:
+    """Can each node hear its alarms (level, filter, hold circuit), and did it report their tests?"""
+    from .nodes import node_report
+
+    for located in active_devices(portfolio, as_of):
+        node = located.device
+        if node.kind is not m.Kind.LISTENING_NODE:
+            continue
+        report = node_report(portfolio, policy, node, as_of)
+        for rule_name, due, reason in node_problems(report, policy):
+            yield _finding(located, "node", due, as_of, policy[rule_name], None, reason)
+
+
+def node_problems(report, policy: Policy) -> Iterator[tuple[str, date | None, str]]:
+    minimum = policy.quantity("min_hearing_margin")
+    for check in report.listened:
+        name = check.device.rsplit("/", 1)[1]
+        if check.margin_db is None:
+            missing = " and ".join(x for x, v in (("distance_m", check.distance_m),
+                                                   ("threshold_dba", report.threshold_dba)) if v is None)
+            yield "min_hearing_margin", None, f"cannot check how well it hears {name}: record {missing}"
+        elif check.margin_db < minimum:
+            yield ("min_hearing_margin", None,
+                   f"hears {name} at about {check.expected_dba:.0f} dBA, only {check.margin_db:.1f} dB over its "
+                   f"trigger level of {report.threshold_dba:g} dBA (want {minimum:g} dB): move it closer or lower "
+                   "the trigger level")
+        for missed in check.missed_tests:
+            yield "evidence_window", missed, f"did not report the test of {name} on {missed}"
+    if report.corner_hz is not None and report.corner_hz > report.tone_hz:
+        yield ("alarm_tone", None, f"its filter's corner ({report.corner_hz:.0f} Hz) is above the alarm tone "
+               f"({report.tone_hz:.0f} Hz): the tone is weakened by {report.tone_attenuation_db:.1f} dB")
+    for pattern in report.patterns:
+        if pattern.relevant and not pattern.stays_on:
+            rule = "temporal_3" if pattern.name == "temporal3" else "temporal_4"
+            yield (rule, None, f"its hold circuit (tau {report.tau_s:.2f} s) decays to "
+                   f"{pattern.min_hold_fraction:.0%} over the {pattern.longest_gap_s:g} s gap of {pattern.name}, "
+                   f"below its {report.hold_threshold:.0%} threshold: the alarm will flicker on and off")
+
+
+CHECKS: list[Check] = [coverage_gaps, replacement_due, test_due, battery_due, failed_test, listening_node_findings]
 
 
 def evaluate(portfolio: m.Portfolio, policy: Policy, as_of: date) -> list[Finding]:
-    """Run every check; findings in record order, then task order."""
-    order = {uid: i for i, uid in enumerate(portfolio.devices)}
+    """Run every check; findings in record order (unit, then device), then task order."""
+    unit_order = {u.uid: i for i, u in enumerate(u for p in portfolio.properties for u in p.units)}
+    device_order = {uid: i for i, uid in enumerate(portfolio.devices)}
     findings = [finding for check in CHECKS for finding in check(portfolio, policy, as_of)]
-    return sorted(findings, key=lambda f: (order[f.device], TASK_ORDER.get(f.task, 9)))
+    return sorted(findings, key=lambda f: (unit_order.get(f.unit, 0), device_order.get(f.device, -1),
+                                           TASK_ORDER.get(f.task, 9)))
+

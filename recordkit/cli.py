@@ -126,7 +126,7 @@ def checklist(records_dir: str, property_id: str | None, unit_id: str | None, as
                recordkit checklist --property bramble-cottage --unit home --sheet monthly --out card.pdf"""
     from pathlib import Path
 
-    from .render.checklist import blank_unit_html, inspection_html, monthly_card_html, property_sheets
+    from .render.checklist import NotFound, blank_unit_html, inspection_html, monthly_card_html, property_sheets
 
     target = Path(out)
     if target.suffix.lower() not in (".pdf", ".html"):
@@ -145,7 +145,7 @@ def checklist(records_dir: str, property_id: str | None, unit_id: str | None, as
         findings = evaluate(loaded.portfolio, loaded.policy, day)
         try:
             sheets = property_sheets(loaded, findings, property_id, day, unit_id)
-        except KeyError as exc:
+        except NotFound as exc:
             raise click.UsageError(exc.args[0]) from None
         html = (monthly_card_html(sheets[0], day, paper) if sheet == "monthly"
                 else inspection_html(sheets, day, paper))
@@ -186,6 +186,56 @@ def _write(records_dir: str, events, log_file: str | None) -> None:
         sys.exit(EXIT_ERRORS)
     for path, count in written.items():
         click.echo(f"Appended {count} event(s) to {path}")
+
+
+@main.command("node")
+@click.argument("records_dir", type=click.Path(file_okay=False))
+@click.argument("device_id", metavar="DEVICE_ID")
+@as_of_option
+@click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text", show_default=True)
+def node_command(records_dir, device_id, as_of, fmt) -> None:
+    """Show what a listening node can hear: level margin at the node for each alarm it
+    listens to, its filter against the alarm tone, its hold circuit against the
+    temporal-3 and temporal-4 patterns, and how many alarm tests it reported.
+
+    DEVICE_ID is property/unit/device. A listening node is an extra, not a listed
+    fire alarm system."""
+    from .checks import node_problems
+    from .model import Kind
+    from .nodes import node_report
+
+    day = _as_of(as_of)
+    loaded = _load(records_dir, day)
+    if loaded.problems:
+        sys.exit(EXIT_ERRORS)
+    located = loaded.portfolio.devices.get(device_id)
+    if located is None or located.device.kind is not Kind.LISTENING_NODE:
+        nodes = [uid for uid, loc in loaded.portfolio.devices.items() if loc.device.kind is Kind.LISTENING_NODE]
+        raise click.UsageError(f"no listening node '{device_id}' (nodes: {', '.join(nodes) or 'none'})")
+    report = node_report(loaded.portfolio, loaded.policy, located.device, day)
+    problems = [reason for _, _, reason in node_problems(report, loaded.policy)]
+    if fmt == "json":
+        click.echo(json.dumps({"as_of": day.isoformat(), **report.as_json(), "findings": problems}, indent=1))
+        return
+    click.echo(f"Listening node {device_id}, as of {day}")
+    for check in report.listened:
+        margin = f"{check.margin_db:.1f} dB margin" if check.margin_db is not None else "margin unknown"
+        level = f"{check.expected_dba:.0f} dBA" if check.expected_dba is not None else "level unknown"
+        click.echo(f"  hears {check.device}: {level} at the node, {margin}; tests heard "
+                   f"{len(check.heard_tests)}, missed {len(check.missed_tests)}")
+    if report.corner_hz is not None:
+        click.echo(f"  filter corner {report.corner_hz:.0f} Hz: the {report.tone_hz:.0f} Hz tone loses "
+                   f"{report.tone_attenuation_db:.1f} dB, a {report.low_frequency_hz:.0f} Hz tone "
+                   f"{report.low_frequency_attenuation_db:.1f} dB")
+    if report.tau_s:
+        click.echo(f"  hold tau {report.tau_s:.2f} s, releases {report.release_s:.1f} s after the sound stops")
+        for pattern in report.patterns:
+            click.echo(f"    {pattern.name}: holds {pattern.min_hold_fraction:.0%} over its "
+                       f"{pattern.longest_gap_s:g} s gap: {'stays on' if pattern.stays_on else 'flickers'}")
+    for line in problems + report.notes:
+        click.echo(f"  ! {line}")
+    click.echo("A listening node is an extra, not a listed fire alarm system; it is no substitute for "
+               "interconnected alarms or a monitored system where one is required.")
 
 
 @main.command("log")

@@ -10,8 +10,9 @@ from .intake import events_csv_rows
 
 DEVICE_COLUMNS = ("device", "property", "unit", "room", "kind", "power", "manufactured", "installed",
                   "next_task", "next_due", "state", "replace_due", "test_due", "battery_due", "fix_since")
-REMINDER_DAYS = {"replace": 30, "test": 1, "battery": 7, "fix": 0}  # how far ahead a calendar reminds
-TASK_VERBS = {"replace": "Replace", "test": "Test", "battery": "Change the battery of", "fix": "Fix"}
+REMINDER_DAYS = {"replace": 30, "test": 1, "battery": 7, "fix": 0, "node": 0}  # how far ahead a calendar reminds
+TASK_VERBS = {"replace": "Replace", "test": "Test", "battery": "Change the battery of", "fix": "Fix",
+              "node": "Check"}
 
 
 def _iso(day: date | None) -> str:
@@ -66,11 +67,13 @@ def calendar(portfolio: m.Portfolio, findings: list[Finding], as_of: date):
     stamp = datetime.combine(as_of, time(0, 0), tzinfo=timezone.utc)
     sequence = (as_of - date(2000, 1, 1)).days
     for finding in findings:
+        if finding.device not in portfolio.devices:
+            continue  # a coverage gap belongs to a unit and has no date: it is not a calendar task
         located = portfolio.devices[finding.device]
         room = located.unit.room(located.device.room)
         day = finding.due or as_of
         event = Event()
-        event.add("uid", f"{finding.device}/{finding.task}@recordkit")
+        event.add("uid", f"{finding.key}@recordkit")
         event.add("dtstamp", stamp)
         event.add("sequence", sequence)
         event.add("dtstart", day)

@@ -8,7 +8,7 @@ reports keys nobody asked for: a misspelt key is an error, not silently lost.
 from __future__ import annotations
 
 import re
-from datetime import date
+from datetime import date, time
 from enum import StrEnum
 from typing import Any, TypeVar
 
@@ -22,6 +22,8 @@ ID_PATTERN = re.compile(r"^[a-z0-9](?:[a-z0-9-]{0,62}[a-z0-9])?$")
 RESERVED_IDS = {"con", "prn", "aux", "nul", *(f"com{i}" for i in range(1, 10)), *(f"lpt{i}" for i in range(1, 10))}
 _DAY = re.compile(r"^(\d{4})-(\d{2})-(\d{2})$")
 _MONTH = re.compile(r"^(\d{4})-(\d{2})$")
+_DAY_TIME = re.compile(r"^(\d{4}-\d{2}-\d{2})(?:[ T](\d{2}):(\d{2})(?::(\d{2}))?)?$")
+_SCIENTIFIC = re.compile(r"^[-+]?\d+(\.\d*)?[eE][-+]?\d+$")
 _MISSING = object()
 
 
@@ -44,6 +46,21 @@ def parse_date(text: Any, *, allow_month: bool = False, allow_unknown: bool = Fa
             raise ValueError(f"{value} is not a real month")
     forms = "YYYY-MM-DD" + (", YYYY-MM" if allow_month else "") + (" or unknown" if allow_unknown else "")
     raise ValueError(f"expected a date as {forms}, got {text!r}")
+
+
+def parse_date_time(text: Any) -> tuple[date, time | None]:
+    """YYYY-MM-DD, optionally followed by a time of day: 'YYYY-MM-DD HH:MM[:SS]' (or with a T)."""
+    match = _DAY_TIME.match(str(text).strip()) if isinstance(text, str) else None
+    if not match:
+        return parse_date(text), None
+    day = parse_date(match.group(1))
+    if match.group(2) is None:
+        return day, None
+    hour, minute, second = int(match.group(2)), int(match.group(3)), int(match.group(4) or 0)
+    try:
+        return day, time(hour, minute, second)
+    except ValueError:
+        raise ValueError(f"{text} has no such time of day") from None
 
 
 class Fields:
@@ -118,6 +135,8 @@ class Fields:
         if value is _MISSING:
             return None
         kinds = (int,) if integer else (int, float)
+        if not integer and isinstance(value, str) and _SCIENTIFIC.match(value.strip()):
+            value = float(value)  # YAML 1.1 reads 22e-9 (no dot) as text; a capacitor value is written so
         if isinstance(value, bool) or not isinstance(value, kinds):
             self.error(key, f"'{key}' must be {'a whole number' if integer else 'a number'}, got {value!r}")
             return None
@@ -136,6 +155,16 @@ class Fields:
         except ValueError as exc:
             self.error(key, f"'{key}': {exc}")
             return None
+
+    def day_time(self, key: str, *, required: bool = False) -> tuple[date | None, time | None]:
+        value = self._get(key, required)
+        if value is _MISSING:
+            return None, None
+        try:
+            return parse_date_time(value)
+        except ValueError as exc:
+            self.error(key, f"'{key}': {exc}")
+            return None, None
 
     def items(self, key: str, required: bool = False) -> list[tuple[Any, int]]:
         """A list field as (item, line) pairs."""

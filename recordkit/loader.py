@@ -20,6 +20,8 @@ from .rules import Policy, apply_policy_file
 from .yamltree import read_yaml
 
 POLICY_FILE = "policy.yaml"
+# A listening node's circuit design values (ohms, farads, hertz), all optional.
+CIRCUIT_KEYS = ("filter_r_ohm", "filter_c_farad", "corner_hz", "hold_r_ohm", "hold_c_farad")
 RECORD_SUFFIXES = (".yaml", ".yml")
 
 
@@ -193,13 +195,22 @@ class _Builder:
         if listens and kind is not m.Kind.LISTENING_NODE:
             f.error("listens_to", "only a listening_node has 'listens_to'")
         threshold = f.number("threshold_dba", minimum=0)
+        circuit = {key: f.number(key, minimum=0) for key in CIRCUIT_KEYS}
+        hold_threshold = f.number("hold_threshold", minimum=0.01)
+        if hold_threshold is not None and hold_threshold >= 1:
+            f.error("hold_threshold", "'hold_threshold' is a fraction of the charged level, below 1 (e.g. 0.5)")
+            hold_threshold = None
+        node_only = [k for k in (*CIRCUIT_KEYS, "threshold_dba", "hold_threshold")
+                     if k in f.map and f.map[k] is not None]
+        if kind is not m.Kind.LISTENING_NODE and node_only:
+            f.error(node_only[0], f"only a listening_node has '{node_only[0]}'")
         device = m.Device(
             did, f"{unit_uid}/{did}", kind or m.Kind.SMOKE, room, power or m.Power.BATTERY,
             installed or date.min, f.source(), manufactured=manufactured,
             manufactured_text=manufactured_text, sensor=sensor,
             life_years=life, removed=removed, location=f.text("location"), note=f.text("note"),
             interconnected=f.flag("interconnected"), listens_to=tuple(x for x in listens if x),
-            threshold_dba=threshold)
+            threshold_dba=threshold, hold_threshold=hold_threshold, **circuit)
         f.finish()
         return device if did and kind and installed else None
 
@@ -210,7 +221,7 @@ class _Builder:
         if not f.ok:
             return None
         listen = m.Listen(f.text("device", required=True), f.source(),
-                          distance_m=f.number("distance_m", minimum=0),
+                          distance_m=f.number("distance_m", minimum=0.1),
                           doors=f.number("doors", integer=True, minimum=0),
                           walls=f.number("walls", integer=True, minimum=0))
         f.finish()
@@ -236,12 +247,12 @@ class _Builder:
         f = Fields(tree, path, self.problems, "event", line)
         if not f.ok:
             return None
-        when = f.day("date", required=True)
+        when, clock = f.day_time("date", required=True)
         device = f.text("device", required=True)
         action = f.choice("action", m.Action, required=True)
         result = f.choice("result", m.Result)
         event = m.Event(when or date.min, device, action or m.Action.NOTE, f.source(), result,
-                        by=f.text("by"), note=f.text("note"))
+                        by=f.text("by"), note=f.text("note"), time=clock)
         f.finish()
         return event if len(self.problems) == before else None  # unreadable: not checked further
 

@@ -6,7 +6,7 @@ point the user back to the line they wrote.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import date
+from datetime import date, time
 from enum import StrEnum
 from functools import cached_property
 
@@ -88,6 +88,7 @@ class Action(StrEnum):
     CLEAN = "clean"
     INSPECT = "inspect"
     NOTE = "note"
+    HEARD = "heard"      # a listening node reported an alarm (give the time of day)
 
 
 class Result(StrEnum):
@@ -134,8 +135,15 @@ class Device:
     location: str = ""
     note: str = ""
     interconnected: bool = False
+    # listening nodes only: what they listen to and their circuit's design values
     listens_to: tuple[Listen, ...] = ()
     threshold_dba: float | None = None
+    filter_r_ohm: float | None = None
+    filter_c_farad: float | None = None
+    corner_hz: float | None = None
+    hold_r_ohm: float | None = None
+    hold_c_farad: float | None = None
+    hold_threshold: float | None = None   # logic threshold as a fraction of the charged hold level
 
 
 @dataclass(frozen=True)
@@ -151,6 +159,10 @@ class Unit:
 
     def room(self, room_id: str) -> Room | None:
         return next((r for r in self.rooms if r.id == room_id), None)
+
+    @property
+    def levels(self) -> list[int]:
+        return sorted({room.level for room in self.rooms})
 
 
 @dataclass(frozen=True)
@@ -171,6 +183,7 @@ class Event:
     result: Result | None = None
     by: str = ""
     note: str = ""
+    time: time | None = None   # time of day, when recorded (needed to match a node's report to a test)
 
 
 @dataclass(frozen=True)
@@ -202,6 +215,16 @@ class Portfolio:
 
     def events_for(self, uid: str) -> tuple[Event, ...]:
         return self.history.get(uid, ())
+
+    def listened(self, node: Device) -> list[tuple[Listen, "Located"]]:
+        """The alarms a listening node is meant to hear, resolved to devices (unknown ids skipped)."""
+        unit_uid = node.uid.rsplit("/", 1)[0]
+        pairs = []
+        for listen in node.listens_to:
+            target = listen.device if "/" in listen.device else f"{unit_uid}/{listen.device}"
+            if target in self.devices:
+                pairs.append((listen, self.devices[target]))
+        return pairs
 
     def retired_on(self, uid: str) -> date | None:
         """The day a device left service: its `removed:` date or its first `replace` event."""

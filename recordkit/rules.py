@@ -41,10 +41,32 @@ class Interval:
 
 
 @dataclass(frozen=True)
+class Quantity:
+    """A measured value with its unit, e.g. 10 dB, 3300 Hz, 2 minutes, 50 %."""
+
+    amount: float
+    unit: str
+
+    def __str__(self) -> str:
+        amount = int(self.amount) if float(self.amount).is_integer() else self.amount
+        return f"{amount} {self.unit}" if self.unit != "%" else f"{amount} %"
+
+    @classmethod
+    def parse(cls, value: Any, unit: str) -> "Quantity":
+        """A number, or a number followed by the same unit ("12 dB")."""
+        if isinstance(value, (int, float)) and not isinstance(value, bool):
+            return cls(float(value), unit)
+        match = re.match(r"^\s*(-?\d+(?:\.\d+)?)\s*(.*?)\s*$", value) if isinstance(value, str) else None
+        if not match or match.group(2) not in ("", unit):
+            raise ValueError(f"expected a number of {unit}, e.g. '12 {unit}', got {value!r}")
+        return cls(float(match.group(1)), unit)
+
+
+@dataclass(frozen=True)
 class Rule:
     name: str
     title: str
-    value: Interval | str      # str for rules that are a fixed instruction ("replace now")
+    value: Interval | Quantity | str   # str for rules that are a fixed instruction ("replace now")
     source: str
     local: bool = False         # True when policy.yaml set it
     defined_at: Source | None = None
@@ -52,7 +74,13 @@ class Rule:
 
     @property
     def overridable(self) -> bool:
-        return isinstance(self.value, Interval)
+        return isinstance(self.value, (Interval, Quantity))
+
+    def parse_value(self, value: Any) -> Interval | Quantity:
+        """Read an override in the same kind of value as this rule's default."""
+        if isinstance(self.value, Quantity):
+            return Quantity.parse(value, self.value.unit)
+        return Interval.parse(value)
 
 
 DEFAULT_RULES: tuple[Rule, ...] = (
@@ -80,49 +108,133 @@ DEFAULT_RULES: tuple[Rule, ...] = (
          "recordkit default (common practice)", minimum=0),
     Rule("due_soon_battery", "Warn before a battery date", Interval(30, "days"),
          "recordkit default (common practice: buy batteries ahead)", minimum=0),
+    # listening nodes: can the node hear the alarm, and does its circuit read the pattern as one alarm?
+    Rule("alarm_output", "Sound output of a listed alarm", "85 dBA at 3 m", "UL 217; EN 14604"),
+    Rule("door_loss", "Loss through a closed interior door", Quantity(17, "dB"),
+         "UL FSRI tests, about 95 to 78 dBA across a closed bedroom door (15-20 dB) - from memory; common practice"),
+    Rule("wall_loss", "Loss through an interior stud wall", Quantity(33, "dB"),
+         "building acoustics tables: STC 33 typical for a stud wall (30-35 dB) - from memory"),
+    Rule("min_hearing_margin", "Least margin of the alarm's level over the node's trigger level",
+         Quantity(10, "dB"), "common practice (headroom for furniture, closed doors, a weak battery)"),
+    Rule("alarm_tone", "Alarm tone a node is checked against", Quantity(3300, "Hz"),
+         "about 3 kHz, most between 2.8 and 3.5 kHz (Fire Protection Research Foundation studies); "
+         "3.3 kHz is common practice"),
+    Rule("low_frequency_tone", "Low-frequency alarm tone for sleeping areas", Quantity(520, "Hz"),
+         "NFPA 72 §18.4.6.3 (2010+): 520 Hz square wave - from memory"),
+    Rule("temporal_3", "Smoke alarm evacuation pattern", "3 x 0.5 s on / 0.5 s off, then 1.5 s off",
+         "ISO 8201; ANSI/ASA S3.41"),
+    Rule("temporal_4", "CO alarm pattern", "4 x 0.1 s on / 0.1 s off, then about 5 s off",
+         "UL 2034; NFPA 72 - from memory"),
+    Rule("hold_threshold", "Logic threshold of a node's hold circuit (when not recorded)", Quantity(50, "%"),
+         "recordkit default (a logic input switching at half the charged level)", minimum=1),
+    Rule("evidence_window", "How close a node's report must be to an alarm test", Quantity(2, "minutes"),
+         "recordkit default (common practice)", minimum=0),
+    Rule("evidence_lookback", "How far back node reports are matched to alarm tests", Interval(12, "months"),
+         "recordkit default; NFPA 72 §7.6 keeps test records at least a year (from memory)"),
 )
+
+# Placement rules by rule set. The same check may rest on different sources in different places.
+_IRC_SMOKE = "IRC R314.3; NFPA 72 §29.5.1"
+_IRC_CO = "IRC R315; NFPA 720 §9.4.1.1 (now NFPA 72 ch. 17/29) - from memory"
+_ENGLAND = "Smoke and Carbon Monoxide Alarm (Amendment) Regulations 2022 (England)"
+COVERAGE_SETS: dict[str, tuple[Rule, ...]] = {
+    "us-irc": (
+        Rule("cov_smoke_bedroom", "A smoke alarm in each sleeping room", "required", _IRC_SMOKE),
+        Rule("cov_smoke_outside_sleeping", "A smoke alarm outside each sleeping area, near the bedrooms",
+             "required", _IRC_SMOKE),
+        Rule("cov_smoke_every_level", "A smoke alarm on every level, basements included", "required", _IRC_SMOKE),
+        Rule("cov_co_outside_sleeping", "A CO alarm outside each sleeping area (fuel-burning appliance or "
+             "attached garage)", "required", _IRC_CO),
+        Rule("cov_co_every_level", "A CO alarm on every level (fuel-burning appliance or attached garage)",
+             "required", _IRC_CO),
+        Rule("cov_co_fuel_bedroom", "A CO alarm in a bedroom that holds a fuel-burning appliance", "required",
+             _IRC_CO),
+        Rule("cov_no_smoke_kitchen_bath", "No smoke alarm in a kitchen or bathroom (nuisance alarms; a heat "
+             "alarm suits a kitchen)", "required",
+             "NFPA 72 §29.11.3.4: distance from cooking appliances and bathroom doors - from memory"),
+        Rule("cov_interconnect", "Every smoke alarm interconnected where the unit requires it", "required",
+             "IRC R314.4; NFPA 72 §29.8.2"),
+    ),
+    "england-2022": (
+        Rule("cov_smoke_every_level", "A smoke alarm on every storey used as living accommodation", "required",
+             _ENGLAND),
+        Rule("cov_co_fuel_room", "A CO alarm in any room with a fixed combustion appliance (not gas cookers)",
+             "required", _ENGLAND),
+        Rule("cov_no_smoke_kitchen_bath", "No smoke alarm in a kitchen or bathroom (a heat alarm suits a kitchen)",
+             "required", "common practice (UK fire-service guidance)"),
+        Rule("cov_interconnect", "Every smoke alarm interconnected where the unit requires it", "required",
+             "the unit's interconnect_required flag (local building rules decide)"),
+    ),
+}
+DEFAULT_COVERAGE = "us-irc"
 
 
 class Policy:
-    """The rules in force, by name."""
+    """The rules in force, by name, with the chosen placement rule set and optional unit costs."""
 
-    def __init__(self, rules: tuple[Rule, ...] = DEFAULT_RULES):
+    def __init__(self, rules: tuple[Rule, ...] = DEFAULT_RULES, coverage: str = DEFAULT_COVERAGE,
+                 costs: dict[str, float] | None = None, currency: str = ""):
         self._rules = {rule.name: rule for rule in rules}
+        self.coverage = coverage
+        self.costs = costs or {}
+        self.currency = currency
+
+    @property
+    def coverage_rules(self) -> tuple[Rule, ...]:
+        return COVERAGE_SETS[self.coverage]
 
     def __getitem__(self, name: str) -> Rule:
         return self._rules[name]
 
     def __iter__(self):
-        return iter(self._rules.values())
+        """Every rule in force: the schedule and node rules, then the chosen placement rules."""
+        return iter((*self._rules.values(), *self.coverage_rules))
 
     def interval(self, name: str) -> Interval:
         value = self._rules[name].value
         assert isinstance(value, Interval), name
         return value
 
+    def quantity(self, name: str) -> float:
+        value = self._rules[name].value
+        assert isinstance(value, Quantity), name
+        return value.amount
+
     def with_override(self, rule: Rule) -> "Policy":
-        return Policy(tuple(rule if r.name == rule.name else r for r in self))
+        rules = tuple(rule if r.name == rule.name else r for r in self._rules.values())
+        return Policy(rules, self.coverage, self.costs, self.currency)
+
+
+POLICY_KEYS = ("policy", "coverage", "replacement_costs")
+COST_KINDS = ("smoke", "co", "smoke_co", "heat", "leak", "listening_node")
 
 
 def apply_policy_file(tree: Any, path: str, problems: Problems, policy: Policy | None = None) -> Policy:
     """Apply a parsed `policy.yaml` (a located YAML tree) to the defaults.
 
-    Shape:  policy: {RULE_NAME: {value: "1 week", source: "where this comes from"}}
+    Shape:
+        coverage: us-irc | england-2022           # placement rule set (default us-irc)
+        policy: {RULE_NAME: {value: "1 week", source: "where this comes from"}}
+        replacement_costs: {currency: "GBP", smoke: 18, co: 25}   # optional, for the budget chart
     """
     policy = policy or Policy()
     if tree is None:
         return policy
-    if not isinstance(tree, dict) or set(tree) - {"policy"}:
+    if not isinstance(tree, dict) or set(tree) - set(POLICY_KEYS):
         line = getattr(tree, "line", 1)
-        problems.add(Source(path, line), "policy.yaml holds one key, 'policy:', a mapping of rule name "
-                     "to {value, source}")
+        problems.add(Source(path, line), "policy.yaml holds 'coverage:', 'policy:' (rule name to "
+                     "{value, source}) and 'replacement_costs:'; nothing else")
         return policy
+    if "coverage" in tree:
+        policy = _apply_coverage(tree, path, problems, policy)
+    if "replacement_costs" in tree:
+        policy = _apply_costs(tree, path, problems, policy)
     overrides = tree.get("policy") or {}
     if not isinstance(overrides, dict):
         problems.add(Source(path, tree.line_of("policy")), "'policy:' must be a mapping of rule name to "
                      "{value, source}")
         return policy
-    names = {rule.name for rule in policy}
+    names = {rule.name for rule in policy if not rule.name.startswith("cov_")}
     for name, body in overrides.items():
         where = Source(path, overrides.key_lines[name])
         if name not in names:
@@ -141,7 +253,7 @@ def apply_policy_file(tree: Any, path: str, problems: Problems, policy: Policy |
                          "(e.g. source: \"Eastfield fire code 2024 §3.2\")")
             continue
         try:
-            value = Interval.parse(body["value"])
+            value = default.parse_value(body["value"])
         except ValueError as exc:
             problems.add(Source(path, body.line_of("value")), f"rule {name!r}: {exc}")
             continue
@@ -152,3 +264,32 @@ def apply_policy_file(tree: Any, path: str, problems: Problems, policy: Policy |
         policy = policy.with_override(replace(default, value=value, source=source.strip(), local=True,
                                               defined_at=where))
     return policy
+
+
+def _apply_coverage(tree, path: str, problems: Problems, policy: Policy) -> Policy:
+    chosen = tree["coverage"]
+    if chosen not in COVERAGE_SETS:
+        problems.add(Source(path, tree.line_of("coverage")),
+                     f"coverage: {chosen!r}; choose one of: {', '.join(COVERAGE_SETS)}")
+        return policy
+    return Policy(tuple(policy._rules.values()), chosen, policy.costs, policy.currency)
+
+
+def _apply_costs(tree, path: str, problems: Problems, policy: Policy) -> Policy:
+    costs = tree["replacement_costs"]
+    where = Source(path, tree.line_of("replacement_costs"))
+    if not isinstance(costs, dict):
+        problems.add(where, "replacement_costs: a mapping of device kind to the cost of one replacement")
+        return policy
+    currency, amounts = "", {}
+    for key, value in costs.items():
+        line = Source(path, costs.key_lines[key])
+        if key == "currency":
+            currency = str(value)
+        elif key not in COST_KINDS:
+            problems.add(line, f"replacement_costs: unknown kind {key!r}; kinds: {', '.join(COST_KINDS)}")
+        elif isinstance(value, bool) or not isinstance(value, (int, float)) or value < 0:
+            problems.add(line, f"replacement_costs: {key} must be a number, got {value!r}")
+        else:
+            amounts[key] = float(value)
+    return Policy(tuple(policy._rules.values()), policy.coverage, amounts, currency)

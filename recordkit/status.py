@@ -41,7 +41,7 @@ def status_text(findings: list[Finding], portfolio: m.Portfolio, as_of: date, sh
     shown = [f for f in findings if show_ok or f.state is not State.OK]
     by_unit: dict[str, list[Finding]] = {}
     for finding in shown:
-        by_unit.setdefault(finding.device.rsplit("/", 1)[0], []).append(finding)
+        by_unit.setdefault(finding.unit, []).append(finding)
     for prop in portfolio.properties:
         units = [u for u in prop.units if u.uid in by_unit]
         if not units:
@@ -50,7 +50,7 @@ def status_text(findings: list[Finding], portfolio: m.Portfolio, as_of: date, sh
         for unit in units:
             lines.append(f"  {unit.name} [{unit.id}]")
             for f in sorted(by_unit[unit.uid], key=lambda f: (f.state.rank, TASK_ORDER[f.task], f.due or date.min)):
-                device_id = f.device.rsplit("/", 1)[1]
+                device_id = "(unit)" if f.device == f.unit else f.device.rsplit("/", 1)[1]
                 lines.append(f"    {LABELS[f.state]:<13}{device_id} - {f.task}, {_when(f, as_of)}")
                 lines += _wrap(f.reason, "        ")
                 local = "local policy: " if f.local else ""

@@ -26,7 +26,7 @@ property:
       rooms:
         - {id: bed-1, level: 1, use: bedroom}
         - {id: hall, level: 1, use: hallway, outside_sleeping: true}
-        - {id: kitchen, level: 0, use: kitchen}
+        - {id: kitchen, level: 1, use: kitchen}
       devices:
 """
 

@@ -8,7 +8,7 @@ import pytest
 from .conftest import ARTIFACTS, DEMO_AS_OF, HOUSE, device_yaml, run_cli
 
 AS_OF = DEMO_AS_OF.isoformat()
-TASK_WORDS = {"replace": "Replace", "test": "Test", "battery": "Battery", "fix": "Fix"}
+TASK_WORDS = {"replace": "Replace", "test": "Test", "battery": "Battery", "fix": "Fix", "node": "Hearing check"}
 
 needs_poppler = pytest.mark.skipif(not shutil.which("pdftotext"), reason="needs poppler-utils (.ci/run installs it)")
 
@@ -36,16 +36,22 @@ def packet(tmp_path_factory):
 def test_packet_has_one_page_per_unit_with_every_device_and_overdue_item(packet):
     status = json.loads(run_cli("status", "records", "--as-of", AS_OF, "--format", "json").stdout)
     items = [i for i in status["items"] if i["device"].startswith("tansy-house/")]
-    units = sorted({i["device"].split("/")[1] for i in items}, key=["flat-g", "flat-1", "flat-2"].index)
+    units = sorted({i["unit"].split("/")[1] for i in items}, key=["flat-g", "flat-1", "flat-2"].index)
     assert pdf_pages(packet) == len(units) == 3  # one unit per page, no cover
     for page, unit in enumerate(units, start=1):
         text = pdf_text(packet, page)
         assert f"tansy-house/{unit}" in text
-        for item in (i for i in items if i["device"].split("/")[1] == unit):
+        for item in (i for i in items if i["unit"] == f"tansy-house/{unit}"):
+            if item["task"] == "coverage":  # listed under the table, in the record's own words
+                assert "Coverage gaps to check" in text and item["reason"] in text, item["reason"]
+                continue
             assert item["device"].split("/")[2] in text, (unit, item["device"])
             if item["state"] == "overdue":
                 word = TASK_WORDS[item["task"]]
-                expected = f"{word} since {item['due']}" if item["due"] else f"{word} now"
+                if item["task"] == "node":
+                    expected = f"{word}: {item['reason']}"
+                else:
+                    expected = f"{word} since {item['due']}" if item["due"] else f"{word} now"
                 assert f"OVERDUE: {expected}" in text, (unit, expected)
         assert "authority having jurisdiction (AHJ) decide" in text
         assert "does not prove the sensor sees smoke" in text
@@ -91,7 +97,9 @@ def test_checklist_usage_errors():
 
 
 def twelve_device_unit(records):
-    devices = "".join(device_yaml(id=f"alarm-{i:02d}", kind="smoke", room=["bed-1", "hall", "kitchen"][i % 3],
+    # smoke alarms in the bedroom and hall, heat alarms in the kitchen: no coverage gap to list
+    devices = "".join(device_yaml(id=f"alarm-{i:02d}", kind="heat" if i % 3 == 2 else "smoke",
+                                  room=["bed-1", "hall", "kitchen"][i % 3],
                                   power="battery", manufactured="unknown" if i % 4 == 0 else "2019-05",
                                   installed="2019-06-01",
                                   location=json.dumps(f"ceiling position {i}, a longer note that wraps onto a second line"))

@@ -20,4 +20,4 @@ def test_demo_records_cover_the_scenario():
     assert any(rule.local for rule in loaded.policy)
     findings = evaluate(portfolio, loaded.policy, DEMO_AS_OF)
     assert {f.state for f in findings} == set(State)
-    assert {f.task for f in findings} == {"replace", "test", "battery", "fix"}
+    assert {f.task for f in findings} == {"replace", "test", "battery", "fix", "coverage", "node"}

@@ -186,10 +186,13 @@ def test_calendar_has_the_same_tasks_and_dates_as_status(tmp_path):
     out = tmp_path / "due.ics"
     assert run_cli("calendar", "records", "--as-of", AS_OF, "-o", str(out)).returncode == 0
     status = json.loads(run_cli("status", "records", "--as-of", AS_OF, "--format", "json").stdout)
-    expected = {(i["device"], i["task"], i["due"] or "unknown") for i in status["items"]}
+    # every dated or device task; coverage gaps belong to a unit and are not calendar events
+    expected = sorted((i["device"], i["task"], i["due"] or "unknown") for i in status["items"]
+                      if i["task"] != "coverage")
     events = list(read_ics(out).walk("VEVENT"))
-    found = {(str(e["X-RECORDKIT-DEVICE"]), str(e["X-RECORDKIT-TASK"]), str(e["X-RECORDKIT-DUE"])) for e in events}
-    assert found == expected and len(events) == len(expected)
+    found = sorted((str(e["X-RECORDKIT-DEVICE"]), str(e["X-RECORDKIT-TASK"]), str(e["X-RECORDKIT-DUE"]))
+                   for e in events)
+    assert found == expected
     for event in events:
         due = str(event["X-RECORDKIT-DUE"])
         start = event.decoded("DTSTART")
@@ -204,8 +207,9 @@ def test_calendar_uids_are_stable_so_reimport_updates(tmp_path):
     uids = lambda path: {str(e["UID"]): int(e["SEQUENCE"]) for e in read_ics(path).walk("VEVENT")}  # noqa: E731
     a, b = uids(first), uids(second)
     assert len(a) == len(list(read_ics(first).walk("VEVENT")))  # unique
-    assert set(a) == set(b)
-    assert all(b[uid] > a[uid] for uid in a)  # a later export supersedes the earlier one
+    scheduled = lambda ids: {u for u in ids if u.split("@")[0].rsplit("/", 1)[1] in ("replace", "test", "battery")}  # noqa: E731
+    assert scheduled(a) == scheduled(b) and scheduled(a)  # the same tasks keep their UIDs as dates move
+    assert all(b[uid] > a[uid] for uid in set(a) & set(b))  # a later export supersedes the earlier one
 
 
 # ---- schema -----------------------------------------------------------------------------------

@@ -23,6 +23,10 @@ PAPER_SIZES = {"a4": "A4 landscape", "letter": "letter landscape", "any": "lands
 BUTTON_TEST_CAUTION = CAUTIONS[1]
 
 
+class NotFound(LookupError):
+    """No such property or unit; the message lists the ones there are."""
+
+
 @dataclass(frozen=True)
 class SheetRow:
     room: str
@@ -51,6 +55,8 @@ _env.globals.update(kind_label=kind_label, state_labels=STATE_LABELS, short_caut
 
 def _due_text(finding: Finding) -> str:
     label = TASK_LABELS[finding.task]
+    if finding.task in ("node", "coverage"):
+        return f"{label}: {finding.reason}"
     if finding.due is None:
         return f"{label} now (no date)"
     return f"{label} {'since' if finding.state is State.OVERDUE else 'by'} {finding.due}"
@@ -89,7 +95,8 @@ def unit_sheet(portfolio: m.Portfolio, by_device: dict[str, list[Finding]], prop
             last_test=f"{test.date} {test.result or ''}".strip() if test else "never",
             last_battery=(str(battery.date) if battery else "none logged") if has_battery else f"n/a ({device.power})",
             due=[(f.state, _due_text(f)) for f in mine if f.state is not State.OK]))
-    return UnitSheet(prop, unit, rows, gaps=[])
+    gaps = [f.reason for f in by_device.get(unit.uid, []) if f.task == "coverage"]
+    return UnitSheet(prop, unit, rows, gaps=gaps)
 
 
 def inspection_html(sheets: list[UnitSheet], as_of: date, paper: str = "any", title: str = "") -> str:
@@ -115,13 +122,13 @@ def blank_unit_html(paper: str = "any", rooms: int = 8, devices: int = 10) -> st
 
 def property_sheets(loaded: Loaded, findings: list[Finding], property_id: str, as_of: date,
                     unit_id: str | None = None) -> list[UnitSheet]:
-    """Sheets for every unit of a property, or one unit. Raises KeyError naming what is missing."""
+    """Sheets for every unit of a property, or one unit. Raises NotFound naming what is missing."""
     prop = next((p for p in loaded.portfolio.properties if p.id == property_id), None)
     if prop is None:
         known = ", ".join(p.id for p in loaded.portfolio.properties)
-        raise KeyError(f"no property '{property_id}' (known: {known})")
+        raise NotFound(f"no property '{property_id}' (known: {known})")
     units = [u for u in prop.units if unit_id is None or u.id == unit_id]
     if not units:
-        raise KeyError(f"no unit '{unit_id}' in '{property_id}' (known: {', '.join(u.id for u in prop.units)})")
+        raise NotFound(f"no unit '{unit_id}' in '{property_id}' (known: {', '.join(u.id for u in prop.units)})")
     by_device = findings_by_device(findings)
     return [unit_sheet(loaded.portfolio, by_device, prop, unit, as_of) for unit in units]

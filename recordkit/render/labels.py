@@ -11,7 +11,8 @@ ASSETS = TEMPLATES / "assets"
 
 # Our own state labels: a symbol and a word, so state never rests on colour alone.
 STATE_LABELS = {State.OVERDUE: ("‼", "Overdue"), State.DUE_SOON: ("◔", "Due soon"), State.OK: ("✓", "In date")}
-TASK_LABELS = {"replace": "Replace", "test": "Test", "battery": "Battery", "fix": "Fix"}
+TASK_LABELS = {"replace": "Replace", "test": "Test", "battery": "Battery", "fix": "Fix",
+               "coverage": "Coverage", "node": "Hearing check"}
 
 
 def kind_label(kind: m.Kind) -> str:

@@ -20,6 +20,8 @@ from ..cautions import CAUTIONS, SHORT
 from ..checks import TASK_ORDER, Finding
 from ..exports import calendar
 from ..loader import Loaded
+from ..nodes import NodeReport, node_report
+from .charts import forecast_svg, month_cells, replacement_forecast, test_grid_svg, yearly_costs
 from ..schema import record_schema
 from ..schedule import State
 from .checklist import blank_unit_html, findings_by_device, inspection_html, monthly_card_html, unit_sheet
@@ -83,6 +85,8 @@ class DeviceView:
         return min(self.findings, default=None,
                    key=lambda f: (f.state.rank, f.due or date.min, TASK_ORDER[f.task]))
 
+    node: "NodeReport | None" = None   # listening nodes: what the node can hear, and its record
+
     @property
     def replacement(self) -> Finding | None:
         return next((f for f in self.findings if f.task == "replace"), None)
@@ -95,8 +99,11 @@ class SiteBuilder:
         self.as_of = as_of
         self.findings = findings
         self.by_device = by_device = findings_by_device(findings)
+        self.units = {u.uid: (p, u) for p in self.portfolio.properties for u in p.units}
         self.views = {uid: DeviceView(loc, by_device.get(uid, []), self.portfolio.events_for(uid),
-                                      self.portfolio.retired_on(uid))
+                                      self.portfolio.retired_on(uid),
+                                      node_report(self.portfolio, loaded.policy, loc.device, as_of)
+                                      if loc.device.kind is m.Kind.LISTENING_NODE else None)
                       for uid, loc in self.portfolio.devices.items()}
         self.env = jinja2.Environment(
             loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=False, finalize=md_text,
@@ -123,8 +130,22 @@ class SiteBuilder:
                      md_text(room.name if room else loc.device.room)]
             return Markup(" › ".join(parts))
 
+        def finding_what(f: Finding) -> Markup:
+            if f.device in self.views:
+                return Markup(f"{md_text(kind_label(f.kind))} {device_link(self.views[f.device])}")
+            prop, unit = self.units[f.unit]
+            url = link(unit_uri(prop, unit), "coverage")
+            return Markup(f"[Coverage of {md_text(unit.name)}]({url})")
+
+        def finding_where(f: Finding) -> Markup:
+            if f.device in self.views:
+                return where(self.views[f.device])
+            prop, unit = self.units[f.unit]
+            return Markup(f"{md_text(prop.name)} › [{md_text(unit.name)}]({link(unit_uri(prop, unit))})")
+
         return self.env.get_template(template).render(
             here=here, link=link, device_link=device_link, where=where, views=self.views,
+            finding_what=finding_what, finding_where=finding_where,
             unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor,
             checklist_uri=checklist_uri, new_unit_sheet=NEW_UNIT_SHEET, calendar_file=CALENDAR,
             schema_file=SCHEMA, **context)
@@ -170,8 +191,12 @@ class SiteBuilder:
         upcoming = sorted((f for f in self.findings
                            if f.state is not State.OVERDUE and f.due and f.due <= horizon),
                           key=lambda f: (f.due, f.device, TASK_ORDER[f.task]))
+        policy = self.loaded.policy
+        quarters = replacement_forecast(self.findings, self.portfolio, self.as_of, policy.costs)
         content = self._render(
             "overview.md.j2", "index.md", kinds=[(k, by_kind[k]) for k in m.Kind if k in by_kind],
+            forecast=Markup(forecast_svg(quarters)), yearly=yearly_costs(quarters),
+            costs=policy.costs, currency=policy.currency,
             totals=totals, overdue=overdue, upcoming=upcoming, upcoming_days=UPCOMING_DAYS,
             last_changed=self.loaded.last_changed, files=len(self.loaded.files),
             properties=self.portfolio.properties)
@@ -181,7 +206,11 @@ class SiteBuilder:
         views = [self.views[d.uid] for d in unit.devices]
         rooms = [(room, [v for v in views if v.device.room == room.id and not self._retired(v)])
                  for room in unit.rooms]
+        active = [v for v in views if not self._retired(v)]
+        grid = test_grid_svg([(v.device.id, month_cells(self.portfolio, v.device, self.as_of)) for v in active])
+        gaps = [f for f in self.by_device.get(unit.uid, []) if f.task == "coverage"]
         content = self._render("unit.md.j2", unit_uri(prop, unit), prop=prop, unit=unit, rooms=rooms,
+                               grid=Markup(grid), gaps=gaps, rule_set=self.loaded.policy.coverage,
                                active=[v for v in views if not self._retired(v)],
                                retired=[v for v in views if self._retired(v)])
         return Page(unit_uri(prop, unit), content, in_nav=False)
