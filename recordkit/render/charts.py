@@ -106,7 +106,7 @@ def month_cells(portfolio: m.Portfolio, device: m.Device, as_of: date) -> list[t
     return cells
 
 
-def test_grid_svg(rows: list[tuple[str, list[tuple[date, str]]]]) -> str:
+def monthly_grid_svg(rows: list[tuple[str, list[tuple[date, str]]]]) -> str:
     """One row per device, one cell per month, each cell a symbol: ✓ pass, ✗ fail, – missed."""
     name_width, cell, head = 150, 40, 22
     width = name_width + cell * GRID_MONTHS + 4

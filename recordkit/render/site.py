@@ -21,7 +21,7 @@ from ..checks import TASK_ORDER, Finding
 from ..exports import calendar
 from ..loader import Loaded
 from ..nodes import NodeReport, node_report
-from .charts import forecast_svg, month_cells, replacement_forecast, test_grid_svg, yearly_costs
+from .charts import forecast_svg, month_cells, replacement_forecast, monthly_grid_svg, yearly_costs
 from ..schema import record_schema
 from ..schedule import State
 from .checklist import blank_unit_html, findings_by_device, inspection_html, monthly_card_html, unit_sheet
@@ -207,7 +207,7 @@ class SiteBuilder:
         rooms = [(room, [v for v in views if v.device.room == room.id and not self._retired(v)])
                  for room in unit.rooms]
         active = [v for v in views if not self._retired(v)]
-        grid = test_grid_svg([(v.device.id, month_cells(self.portfolio, v.device, self.as_of)) for v in active])
+        grid = monthly_grid_svg([(v.device.id, month_cells(self.portfolio, v.device, self.as_of)) for v in active])
         gaps = [f for f in self.by_device.get(unit.uid, []) if f.task == "coverage"]
         content = self._render("unit.md.j2", unit_uri(prop, unit), prop=prop, unit=unit, rooms=rooms,
                                grid=Markup(grid), gaps=gaps, rule_set=self.loaded.policy.coverage,
