@@ -216,7 +216,8 @@ class SiteBuilder:
         return Page(unit_uri(prop, unit), content, in_nav=False)
 
     def rules(self) -> Page:
-        return Page("rules.md", self._render("rules.md.j2", "rules.md", rules=list(self.loaded.policy)))
+        return Page("rules.md", self._render("rules.md.j2", "rules.md", rules=list(self.loaded.policy),
+                                             rule_set=self.loaded.policy.coverage))
 
     def about(self) -> Page:
         return Page("about.md", self._render("about.md.j2", "about.md", cautions=CAUTIONS))
