@@ -427,6 +427,29 @@ def _emit(text: str, out: str | None) -> None:
         click.echo(text, nl=False)
 
 
+@main.command("demo-portfolio")
+@click.option("--units", type=click.IntRange(1), default=200, show_default=True, help="How many units.")
+@click.option("--years", type=click.IntRange(1, 30), default=5, show_default=True, help="Years of history.")
+@click.option("--seed", type=int, default=7, show_default=True, help="Same seed, same files.")
+@click.option("--events", "events_format", type=click.Choice(["yaml", "csv"]), default="yaml", show_default=True,
+              help="Keep the event logs as YAML or as CSV.")
+@click.option("--out", required=True, type=click.Path(file_okay=False), help="An empty folder to fill.")
+def demo_portfolio(units, years, seed, events_format, out) -> None:
+    """Write a synthetic portfolio of invented buildings (for trying recordkit at scale).
+
+    Judge it with --as-of 2026-12-01, the date its history ends."""
+    from pathlib import Path
+
+    from .demo_portfolio import generate
+
+    target = Path(out)
+    if target.exists() and any(target.iterdir()):
+        raise click.UsageError(f"{out} is not empty")
+    click.echo(f"Writing {units} units ...", err=True)
+    counts = generate(target, units, years, seed, events_format=events_format)
+    click.echo(", ".join(f"{n} {what}" for what, n in counts.items()) + f" written to {out}")
+
+
 config_option = click.option("--config", "config_file", default="mkdocs.yml", show_default=True,
                              type=click.Path(exists=True, dir_okay=False),
                              help="The MkDocs configuration that uses the recordkit plugin.")

@@ -6,22 +6,17 @@ written.
 """
 from __future__ import annotations
 
-import csv
-import re
 from dataclasses import dataclass, field
 from datetime import date
 from pathlib import Path
 
-from dateutil import parser as date_parser
-
+from . import csvlog
 from . import model as m
 from .errors import Source
 from .loader import Loaded, event_problems
 from .logbook import NewEvent, append_events, default_log_file
 
-CSV_COLUMNS = ("date", "device", "action", "result", "by", "note")
-REQUIRED_COLUMNS = ("date", "device", "action")
-_ISO = re.compile(r"^\d{4}-\d{2}-\d{2}$")
+CSV_COLUMNS = csvlog.CSV_COLUMNS
 
 
 class IntakeError(Exception):
@@ -80,18 +75,6 @@ class CsvImport:
     duplicates: int = 0
 
 
-def parse_sheet_date(text: str, dayfirst: bool) -> date:
-    """ISO dates as they are; otherwise as a spreadsheet writes them (MM/DD/YYYY, or DD/MM/YYYY
-    with dayfirst). ISO is matched first because dateutil with dayfirst reads 2026-12-01 as 12 Jan."""
-    text = text.strip()
-    if _ISO.match(text):
-        return date.fromisoformat(text)
-    parsed = date_parser.parse(text, dayfirst=dayfirst, yearfirst=False)
-    if (parsed.hour, parsed.minute, parsed.second) != (0, 0, 0):
-        raise ValueError("has a time of day; give the date only")
-    return parsed.date()
-
-
 def read_csv(path: Path, loaded: Loaded, today: date, dayfirst: bool = False) -> CsvImport:
     result = CsvImport()
     shown = str(path)
@@ -102,20 +85,12 @@ def read_csv(path: Path, loaded: Loaded, today: date, dayfirst: bool = False) ->
         return result
     except OSError as exc:
         raise IntakeError(f"{shown}: cannot read: {exc.strerror}") from None
-    reader = csv.reader(text.splitlines())
-    header = [h.strip().lower() for h in next(reader, [])]
-    missing = [c for c in REQUIRED_COLUMNS if c not in header]
-    unknown = [h for h in header if h and h not in CSV_COLUMNS]
-    if missing or unknown:
-        result.problems.append(f"{shown}:1: header needs columns {', '.join(CSV_COLUMNS)} (date, device and "
-                               f"action required); missing: {', '.join(missing) or 'none'}; "
-                               f"unknown: {', '.join(unknown) or 'none'}")
+    header, body = csvlog.rows(text)
+    if problem := csvlog.header_problem(header):
+        result.problems.append(f"{shown}:1: {problem}")
         return result
     existing = {(e.date, e.device, e.action, e.result, e.by, e.note) for e in loaded.portfolio.events}
-    for row_number, row in enumerate(reader, start=2):
-        if not any(cell.strip() for cell in row):
-            continue
-        cells = {name: (row[i].strip() if i < len(row) else "") for i, name in enumerate(header)}
+    for row_number, cells in body:
         source = Source(shown, row_number)
         event, messages = _row_event(cells, dayfirst)
         if event:
@@ -137,7 +112,7 @@ def _row_event(cells: dict[str, str], dayfirst: bool) -> tuple[NewEvent | None, 
     messages = []
     when = action = result = None
     try:
-        when = parse_sheet_date(cells["date"], dayfirst)
+        when = csvlog.parse_sheet_date(cells["date"], dayfirst)
     except (ValueError, OverflowError) as exc:
         messages.append(f"date {cells['date']!r}: {exc}")
     try:

@@ -9,17 +9,20 @@ from __future__ import annotations
 import difflib
 import os
 from dataclasses import dataclass, field
-from datetime import date, datetime, timezone
+from datetime import date, datetime, time, timezone
 from pathlib import Path
 from typing import Any
 
+from . import csvlog
 from . import model as m
+from .cache import ParseCache, decode_tree, encode_tree
 from .errors import Problem, Problems, Source
 from .fields import Fields
 from .rules import Policy, apply_policy_file
-from .yamltree import read_yaml
+from .yamltree import YMap, read_yaml
 
 POLICY_FILE = "policy.yaml"
+CSV_SUFFIX = ".csv"   # event logs kept as CSV (the import's columns), for very long histories
 # A listening node's circuit design values (ohms, farads, hertz), all optional.
 CIRCUIT_KEYS = ("filter_r_ohm", "filter_c_farad", "corner_hz", "hold_r_ohm", "hold_c_farad")
 RECORD_SUFFIXES = (".yaml", ".yml")
@@ -48,7 +51,7 @@ def record_files(root: Path, problems: Problems) -> list[Path]:
     for folder, dirs, files in os.walk(root, followlinks=False):
         dirs[:] = sorted(d for d in dirs if not d.startswith("."))
         for name in sorted(files):
-            if name.startswith(".") or not name.endswith(RECORD_SUFFIXES):
+            if name.startswith(".") or not name.endswith((*RECORD_SUFFIXES, CSV_SUFFIX)):
                 continue
             path = Path(folder) / name
             if not path.resolve().is_relative_to(real_root):
@@ -59,8 +62,10 @@ def record_files(root: Path, problems: Problems) -> list[Path]:
     return found
 
 
-def load_records(root: str | Path, as_of: date) -> Loaded:
-    """Load and validate every record under `root` as of a date (events after it are refused)."""
+def load_records(root: str | Path, as_of: date, cache: bool = True) -> Loaded:
+    """Load and validate every record under `root` as of a date (events after it are refused).
+
+    With `cache`, parsed files are kept under `root/.cache/` and reused while unchanged."""
     root = Path(root)
     problems = Problems()
     if not root.is_dir():
@@ -68,16 +73,26 @@ def load_records(root: str | Path, as_of: date) -> Loaded:
         return Loaded(str(root), m.Portfolio(), Policy(), problems)
     policy = Policy()
     builder = _Builder(problems)
+    parse_cache = ParseCache(root, enabled=cache)
     paths = record_files(root, problems)
     newest = 0.0
     for path in paths:
         shown = str(path)
         try:
-            data = path.read_bytes()
-            newest = max(newest, path.stat().st_mtime)
+            if path.suffix == CSV_SUFFIX:
+                data, mtime = path.read_bytes(), path.stat().st_mtime
+                builder.add_csv(data, shown)
+                newest = max(newest, mtime)
+                continue
+            payload, data, stat, digest = parse_cache.get(path, shown)
+            newest = max(newest, stat.st_mtime)
         except OSError as exc:
             problems.add(Source(shown, 0), f"cannot read: {exc.strerror or exc}")
             continue
+        if payload is not None and not (path.parent == root and path.name == POLICY_FILE):
+            builder.add_cached(payload, shown)
+            continue
+        before, events_before = len(problems), len(builder.events)
         tree = read_yaml(data, shown, problems)
         if path.parent == root and path.name == POLICY_FILE:
             policy = apply_policy_file(tree, shown, problems, policy)
@@ -85,6 +100,8 @@ def load_records(root: str | Path, as_of: date) -> Loaded:
             problems.add(Source(shown, 1), "file is empty; expected 'property:' and/or 'events:'")
         elif tree is not None:
             builder.add_file(tree, shown)
+            if len(problems) == before:
+                parse_cache.put(shown, stat, digest, builder.cache_payload(tree, events_before))
     portfolio = builder.finish(as_of)
     last = datetime.fromtimestamp(newest, timezone.utc) if newest else None
     return Loaded(str(root), portfolio, policy, problems.sorted(), [str(p) for p in paths], last)
@@ -119,6 +136,51 @@ class _Builder:
             if event:
                 self.events.append(event)
         top.finish()
+
+    # ---- the parse cache: a file's property as its tree, its events as flat rows ------------
+    def cache_payload(self, tree: Any, events_before: int) -> dict:
+        rest = YMap((k, v) for k, v in tree.items() if k != "events")
+        rest.line, rest.key_lines, rest.value_lines = tree.line, tree.key_lines, tree.value_lines
+        rows = [[e.date.isoformat(), e.time.isoformat() if e.time else None, e.device, e.action.value,
+                 e.result.value if e.result else None, e.by, e.note, e.source.line]
+                for e in self.events[events_before:]]
+        return {"tree": encode_tree(rest), "events": rows, "has_events": "events" in tree}
+
+    def add_cached(self, payload: dict, path: str) -> None:
+        tree = decode_tree(payload["tree"])
+        if "property" in tree:
+            self.add_file(tree, path)
+        action, result = m.Action, m.Result
+        self.events.extend(
+            m.Event(date.fromisoformat(day), device, action(act), Source(path, line),
+                    result(res) if res else None, by, note, time.fromisoformat(clock) if clock else None)
+            for day, clock, device, act, res, by, note, line in payload["events"])
+
+    def add_csv(self, data: bytes, path: str) -> None:
+        """Events from a CSV log: one per row, with the same checks as YAML events."""
+        try:
+            text = data.decode("utf-8-sig")
+        except UnicodeDecodeError:
+            self.problems.add(Source(path, 1), "not UTF-8 text; save the log as UTF-8 CSV")
+            return
+        header, body = csvlog.rows(text)
+        if problem := csvlog.header_problem(header):
+            self.problems.add(Source(path, 1), problem)
+            return
+        for line, cells in body:
+            source = Source(path, line)
+            try:
+                when = csvlog.parse_sheet_date(cells["date"])
+                action = m.Action(cells["action"].lower())
+                result = m.Result(cells["result"].lower()) if cells.get("result") else None
+            except (ValueError, OverflowError) as exc:
+                self.problems.add(source, f"event: cannot read this row ({exc})")
+                continue
+            if not cells["device"]:
+                self.problems.add(source, "event: device is empty")
+                continue
+            self.events.append(m.Event(when, cells["device"], action, source, result,
+                                       cells.get("by", ""), cells.get("note", "")))
 
     # ---- properties, units, rooms, devices ----------------------------------------------
     def _property(self, tree: Any, path: str, line: int) -> m.Property | None:

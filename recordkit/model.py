@@ -226,11 +226,19 @@ class Portfolio:
                 pairs.append((listen, self.devices[target]))
         return pairs
 
+    @cached_property
+    def _retirements(self) -> dict[str, date]:
+        retired: dict[str, date] = {}
+        for event in self.events:
+            if event.action is Action.REPLACE and (event.device not in retired or event.date < retired[event.device]):
+                retired[event.device] = event.date
+        for uid, located in self.devices.items():
+            removed = located.device.removed
+            if removed and (uid not in retired or removed < retired[uid]):
+                retired[uid] = removed
+        return retired
+
     def retired_on(self, uid: str) -> date | None:
         """The day a device left service: its `removed:` date or its first `replace` event."""
-        device = self.devices[uid].device
-        dates = [e.date for e in self.events_for(uid) if e.action is Action.REPLACE]
-        if device.removed:
-            dates.append(device.removed)
-        return min(dates) if dates else None
+        return self._retirements.get(uid)
 

@@ -29,6 +29,11 @@ from .escape import md_text
 from .labels import STATE_LABELS, TASK_LABELS, TEMPLATES, kind_label
 
 UPCOMING_DAYS = 90
+# At a managing agent's scale the overview lists counts per property instead of every task,
+# and properties leave the navigation for an index page (Material renders the nav into every page).
+OVERVIEW_ROWS = 150
+NAV_PROPERTIES = 40
+PROPERTIES_INDEX = "properties.md"
 
 
 @dataclass(frozen=True)
@@ -155,10 +160,20 @@ class SiteBuilder:
         pages = [self.overview(), self.rules(), self.about(), Page(NEW_UNIT_SHEET, blank_unit_html(), static=True),
                  Page(CALENDAR, calendar(self.portfolio, self.findings, self.as_of).to_ical().decode(), static=True),
                  Page(SCHEMA, json.dumps(record_schema(), indent=2) + "\n", static=True)]
+        many = len(self.portfolio.properties) > NAV_PROPERTIES
+        if many:
+            pages.append(Page(PROPERTIES_INDEX, self._render("properties.md.j2", PROPERTIES_INDEX,
+                                                             rows=self._property_rows())))
+        overdue_by_property: dict[str, list[Finding]] = {}
+        for finding in sorted((f for f in self.findings if f.state is State.OVERDUE),
+                              key=lambda f: (f.due or date.min, f.device)):
+            overdue_by_property.setdefault(finding.unit.split("/", 1)[0], []).append(finding)
         for prop in self.portfolio.properties:
+            overdue = overdue_by_property.get(prop.id, [])
             pages.append(Page(property_uri(prop), self._render("property.md.j2", property_uri(prop), prop=prop,
                                                                  units=[self._unit_summary(prop, u) for u in prop.units],
-                                                                 devices=self._active(prop.units))))
+                                                                 devices=self._active(prop.units), overdue=overdue),
+                              in_nav=not many))
             sheets = [unit_sheet(self.portfolio, self.by_device, prop, unit, self.as_of) for unit in prop.units]
             pages.append(Page(checklist_uri(prop), inspection_html(sheets, self.as_of), static=True))
             for unit, sheet in zip(prop.units, sheets):
@@ -167,6 +182,15 @@ class SiteBuilder:
                 pages.append(Page(checklist_uri(prop, unit, monthly=True), monthly_card_html(sheet, self.as_of),
                                   static=True))
         return pages
+
+    def _property_rows(self) -> list[dict]:
+        """Per property: devices in service, overdue and due-soon tasks (for large portfolios)."""
+        counts: dict[str, Counter] = {}
+        for finding in self.findings:
+            counts.setdefault(finding.unit.split("/", 1)[0], Counter())[finding.state] += 1
+        return [{"prop": p, "devices": sum(len(u.devices) for u in p.units), "units": len(p.units),
+                 "overdue": counts.get(p.id, Counter())[State.OVERDUE],
+                 "due_soon": counts.get(p.id, Counter())[State.DUE_SOON]} for p in self.portfolio.properties]
 
     def _active(self, units) -> list[DeviceView]:
         return [self.views[d.uid] for u in units for d in u.devices if not self._retired(self.views[d.uid])]
@@ -199,7 +223,8 @@ class SiteBuilder:
             costs=policy.costs, currency=policy.currency,
             totals=totals, overdue=overdue, upcoming=upcoming, upcoming_days=UPCOMING_DAYS,
             last_changed=self.loaded.last_changed, files=len(self.loaded.files),
-            properties=self.portfolio.properties)
+            properties=self.portfolio.properties, row_limit=OVERVIEW_ROWS, property_rows=self._property_rows(),
+            properties_index=PROPERTIES_INDEX if len(self.portfolio.properties) > NAV_PROPERTIES else None)
         return Page("index.md", content)
 
     def unit_page(self, prop: m.Property, unit: m.Unit) -> Page:

@@ -1,0 +1,50 @@
+"""Events as CSV rows (date, device, action, result, by, note): spreadsheet imports and CSV log files.
+
+Shared by `import` (which checks rows before appending them) and the loader
+(which reads `*.csv` logs kept in the records folder, for very long histories).
+"""
+from __future__ import annotations
+
+import csv
+import re
+from datetime import date
+from typing import Iterator
+
+from dateutil import parser as date_parser
+
+CSV_COLUMNS = ("date", "device", "action", "result", "by", "note")
+REQUIRED_COLUMNS = ("date", "device", "action")
+_ISO = re.compile(r"^\d{4}-\d{2}-\d{2}$")
+
+
+def parse_sheet_date(text: str, dayfirst: bool = False) -> date:
+    """ISO dates as they are; otherwise as a spreadsheet writes them (MM/DD/YYYY, or DD/MM/YYYY
+    with dayfirst). ISO is matched first because dateutil with dayfirst reads 2026-12-01 as 12 Jan."""
+    text = text.strip()
+    if _ISO.match(text):
+        return date.fromisoformat(text)
+    parsed = date_parser.parse(text, dayfirst=dayfirst, yearfirst=False)
+    if (parsed.hour, parsed.minute, parsed.second) != (0, 0, 0):
+        raise ValueError("has a time of day; give the date only")
+    return parsed.date()
+
+
+def header_problem(header: list[str]) -> str | None:
+    missing = [c for c in REQUIRED_COLUMNS if c not in header]
+    unknown = [h for h in header if h and h not in CSV_COLUMNS]
+    if missing or unknown:
+        return (f"header needs columns {', '.join(CSV_COLUMNS)} (date, device and action required); "
+                f"missing: {', '.join(missing) or 'none'}; unknown: {', '.join(unknown) or 'none'}")
+    return None
+
+
+def rows(text: str) -> tuple[list[str], Iterator[tuple[int, dict[str, str]]]]:
+    """The lower-cased header, and (line number, cells by column) for each non-empty row."""
+    reader = csv.reader(text.splitlines())
+    header = [h.strip().lower() for h in next(reader, [])]
+
+    def body() -> Iterator[tuple[int, dict[str, str]]]:
+        for number, row in enumerate(reader, start=2):
+            if any(cell.strip() for cell in row):
+                yield number, {name: (row[i].strip() if i < len(row) else "") for i, name in enumerate(header)}
+    return header, body()

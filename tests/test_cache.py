@@ -1,0 +1,114 @@
+"""The parse cache gives the same model as a cold parse, through random edits; losing it is harmless."""
+import os
+import shutil
+from datetime import date
+
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from recordkit.loader import load_records
+
+from .conftest import DEMO_AS_OF, DEMO_RECORDS, run_cli
+
+AS_OF = DEMO_AS_OF
+
+
+def same(a, b):
+    assert a.problems == b.problems
+    assert a.portfolio == b.portfolio  # every property, unit, room, device and event, with file and line
+    assert [(r.name, r.value, r.source, r.local) for r in a.policy] == [(r.name, r.value, r.source, r.local)
+                                                                        for r in b.policy]
+
+
+def test_warm_load_equals_cold_load(tmp_path):
+    folder = tmp_path / "records"
+    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".cache"))
+    cold = load_records(folder, AS_OF, cache=False)
+    first = load_records(folder, AS_OF)     # fills the cache
+    second = load_records(folder, AS_OF)    # reads it
+    assert (folder / ".cache").is_dir() and list((folder / ".cache").glob("*.json"))
+    same(cold, first)
+    same(cold, second)
+
+
+EDITS = st.lists(st.tuples(st.sampled_from(["log/2026.yaml", "log/2025.yaml", "tansy-house.yaml",
+                                              "bramble-cottage.yaml"]),
+                           st.sampled_from(["pass->fail", "drop-last-line", "append-event", "break", "touch",
+                                            "made-later"])),
+                 min_size=1, max_size=4)
+
+
+def apply_edit(folder, name, edit):
+    path = folder / name
+    text = path.read_text()
+    if edit == "pass->fail":
+        text = text.replace("result: pass", "result: fail", 1)
+    elif edit == "drop-last-line":
+        text = "\n".join(text.splitlines()[:-1]) + "\n"
+    elif edit == "append-event" and "events:" in text:
+        text += "  - {date: 2026-11-30, device: bramble-cottage/home/hall-smoke, action: clean, note: edit}\n"
+    elif edit == "break":
+        text += "  - {date: 2026-11-31\n"
+    elif edit == "made-later":
+        text = text.replace("manufactured: 2016-05", "manufactured: 2016-06")
+    path.write_text(text)
+    if edit == "touch":
+        os.utime(path)
+
+
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(edits=EDITS)
+def test_cache_follows_random_edits(tmp_path_factory, edits):
+    folder = tmp_path_factory.mktemp("edits") / "records"
+    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".cache"))
+    load_records(folder, AS_OF)  # a warm cache of the original files
+    for name, edit in edits:
+        apply_edit(folder, name, edit)
+        same(load_records(folder, AS_OF, cache=False), load_records(folder, AS_OF))
+
+
+def test_deleting_or_corrupting_the_cache_is_harmless(tmp_path):
+    folder = tmp_path / "records"
+    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".cache"))
+    cold = load_records(folder, AS_OF, cache=False)
+    load_records(folder, AS_OF)
+    entries = sorted((folder / ".cache").glob("*.json"))
+    entries[0].write_text("{not json")
+    entries[1].write_bytes(b"\x00\xff" * 50)
+    entries[2].write_text('{"format": 2, "payload": "something else"}')
+    same(cold, load_records(folder, AS_OF))
+    shutil.rmtree(folder / ".cache")
+    same(cold, load_records(folder, AS_OF))
+
+
+def test_a_cache_from_another_version_is_ignored(tmp_path, monkeypatch):
+    folder = tmp_path / "records"
+    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".cache"))
+    load_records(folder, AS_OF)
+    monkeypatch.setattr("recordkit.cache.__version__", "0.0.0-other")
+    from recordkit.cache import ParseCache
+    cache = ParseCache(folder)
+    payload, *_ = cache.get(folder / "tansy-house.yaml", str(folder / "tansy-house.yaml"))
+    assert payload is None and cache.misses == 1
+
+
+def test_csv_event_logs_load_like_yaml_ones(tmp_path):
+    yaml_dir, csv_dir = tmp_path / "y", tmp_path / "c"
+    assert run_cli("demo-portfolio", "--units", "12", "--years", "2", "--out", str(yaml_dir)).returncode == 0
+    assert run_cli("demo-portfolio", "--units", "12", "--years", "2", "--events", "csv",
+                   "--out", str(csv_dir)).returncode == 0
+    as_yaml, as_csv = load_records(yaml_dir, AS_OF), load_records(csv_dir, AS_OF)
+    assert as_yaml.problems == [] and as_csv.problems == []
+    key = lambda e: (e.date, e.device, e.action, e.result, e.by, e.note)  # noqa: E731
+    assert sorted(map(key, as_yaml.portfolio.events)) == sorted(map(key, as_csv.portfolio.events))
+    assert len(as_csv.portfolio.events) > 100
+
+
+def test_a_bad_csv_log_row_names_file_and_row(tmp_path):
+    folder = tmp_path / "records"
+    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".cache"))
+    (folder / "log" / "old.csv").write_text("date,device,action,result\n2020-01-01,x/y/z,clean,\n"
+                                            "2020-13-01,bramble-cottage/home/hall-smoke,test,pass\n")
+    messages = [str(p) for p in load_records(folder, date(2026, 12, 1)).problems]
+    assert any("old.csv:2: event: no device 'x/y/z'" in m for m in messages), messages
+    assert any("old.csv:3: event: cannot read this row" in m for m in messages), messages
