@@ -46,6 +46,7 @@ class RecordkitConfig(base.Config):
 class RecordkitPlugin(BasePlugin[RecordkitConfig]):
     def __init__(self) -> None:
         self.pages: list[Page] = []
+        self.inserts: dict[str, dict[str, str]] = {}
         self.records_dir: Path | None = None
 
     def on_config(self, config: MkDocsConfig) -> MkDocsConfig:
@@ -76,6 +77,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         loaded.policy = policy
         findings = evaluate(loaded.portfolio, policy, as_of)
         self.pages = site_pages(loaded, findings, as_of)
+        self.inserts = {page.src_uri: page.inserts for page in self.pages if page.inserts}
         log.info("recordkit: %d devices, %d tasks as of %s", len(loaded.portfolio.devices), len(findings), as_of)
 
         for name in NEEDED_EXTENSIONS:
@@ -110,6 +112,14 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         for asset in (CSS, SHIM):
             files.append(File.generated(config, asset, content=(ASSETS / Path(asset).name).read_bytes()))
         return files
+
+    def on_post_page(self, output: str, /, *, page, config: MkDocsConfig) -> str:
+        """Put the long history tables in, after Markdown and the search index have seen the page."""
+        inserts = self.inserts.get(page.file.src_uri)
+        if inserts:
+            for placeholder, html in inserts.items():
+                output = output.replace(f"<p>{placeholder}</p>", html, 1)
+        return output
 
     def on_serve(self, server, /, *, config: MkDocsConfig, builder):
         if self.records_dir:

@@ -9,7 +9,7 @@ import html
 import json
 import posixpath
 from collections import Counter
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import date, timedelta
 
 import jinja2
@@ -42,6 +42,16 @@ class Page:
     content: str
     in_nav: bool = True
     static: bool = False   # a finished file (a printable sheet), copied as it is
+    # HTML to put in place of placeholder paragraphs after Markdown (and search) have run: long
+    # histories skip both, which keeps the build linear and fast at a landlord's scale.
+    inserts: dict[str, str] = field(default_factory=dict)
+
+    def with_inserts(self) -> str:
+        """The page as one Markdown document, inserts in place (for uses other than MkDocs)."""
+        text = self.content
+        for placeholder, html_text in self.inserts.items():
+            text = text.replace(placeholder, html_text)
+        return text
 
 
 def checklist_uri(prop: m.Property, unit: m.Unit | None = None, monthly: bool = False) -> str:
@@ -119,6 +129,16 @@ class SiteBuilder:
 
     # ---- helpers available to templates ------------------------------------------------
     def _render(self, template: str, here: str, **context) -> str:
+        self.inserts: dict[str, str] = {}
+
+        def later(html_text: str) -> Markup:
+            placeholder = f"rk-insert-{len(self.inserts):05d}"
+            self.inserts[placeholder] = html_text
+            return Markup(f"\n\n{placeholder}\n\n")
+
+        def history(events) -> Markup:
+            return later(history_html(events))
+
         def link(target: str, anchor: str | None = None) -> Markup:
             url = posixpath.relpath(target, posixpath.dirname(here) or ".")
             return Markup(url + (f"#{anchor}" if anchor else ""))
@@ -150,7 +170,7 @@ class SiteBuilder:
 
         return self.env.get_template(template).render(
             here=here, link=link, device_link=device_link, where=where, views=self.views,
-            finding_what=finding_what, finding_where=finding_where,
+            finding_what=finding_what, finding_where=finding_where, history=history,
             unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor,
             checklist_uri=checklist_uri, new_unit_sheet=NEW_UNIT_SHEET, calendar_file=CALENDAR,
             schema_file=SCHEMA, **context)
@@ -238,7 +258,7 @@ class SiteBuilder:
                                grid=Markup(grid), gaps=gaps, rule_set=self.loaded.policy.coverage,
                                active=[v for v in views if not self._retired(v)],
                                retired=[v for v in views if self._retired(v)])
-        return Page(unit_uri(prop, unit), content, in_nav=False)
+        return Page(unit_uri(prop, unit), content, in_nav=False, inserts=self.inserts)
 
     def rules(self) -> Page:
         return Page("rules.md", self._render("rules.md.j2", "rules.md", rules=list(self.loaded.policy),
@@ -259,6 +279,18 @@ def badge(state: State | str | None) -> Markup:
     symbol, word = STATE_LABELS[state]
     return Markup(f'<span class="rk-state rk-{state.value.replace("_", "-")}">'
                   f'<span aria-hidden="true">{symbol}</span> {word}</span>')
+
+
+def history_html(events: tuple[m.Event, ...]) -> Markup:
+    """A device's events, newest first, as one raw HTML block: Markdown leaves it alone, which keeps
+    long histories cheap to build. Every value is escaped."""
+    rows = "".join(
+        f"<tr><td>{e.date}{' ' + e.time.strftime('%H:%M') if e.time else ''}</td><td>{e.action}</td>"
+        f"<td>{e.result or ''}</td><td>{md_text(e.by)}</td><td>{md_text(e.note)}</td></tr>"
+        for e in reversed(events))
+    return Markup(f'<details class="rk-history"><summary>History: {len(events)} event(s), newest first</summary>'
+                  f'<table><thead><tr><th>Date</th><th>Action</th><th>Result</th><th>By</th><th>Note</th></tr>'
+                  f'</thead><tbody>{rows}</tbody></table></details>')
 
 
 def front_title(text: str) -> Markup:
