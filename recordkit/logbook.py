@@ -73,7 +73,12 @@ def default_log_file(records_dir: Path, when: date) -> Path:
 def locked(path: Path) -> Iterator[None]:
     """Hold an exclusive lock on PATH.lock (released by the kernel if the process dies)."""
     lock_path = path.with_name(path.name + ".lock")
-    with open(lock_path, "a") as handle:
+    try:
+        handle = open(lock_path, "a")
+    except OSError as exc:
+        raise LogWriteError(f"{path}: cannot open the lock file {lock_path.name} ({exc.strerror}; a read-only "
+                            "folder?); nothing written") from None
+    with handle:
         fcntl.flock(handle, fcntl.LOCK_EX)
         try:
             yield
@@ -85,7 +90,10 @@ def append_events(path: Path, events: list[NewEvent]) -> None:
     """Append events to a log file (created if missing). Raises LogWriteError or MaybeWritten."""
     if not events:
         return
-    path.parent.mkdir(parents=True, exist_ok=True)
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise LogWriteError(f"{path.parent}: cannot create the folder ({exc.strerror}); nothing written") from None
     with locked(path):
         _sweep_temp_files(path)
         old = path.read_bytes() if path.exists() else None

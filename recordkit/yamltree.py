@@ -69,8 +69,14 @@ def read_yaml(data: bytes, path: str, problems: Problems) -> Any:
         line = mark.line + 1 if mark else 1
         problems.add(Source(path, line), _explain_yaml_error(exc, text))
         return None
+    except yaml.reader.ReaderError as exc:
+        line = text[: exc.position].count("\n") + 1 if isinstance(exc.position, int) else 1
+        code = exc.character if isinstance(exc.character, int) else ord(str(exc.character)[:1] or "\0")
+        problems.add(Source(path, line), f"the character U+{code:04X} is not allowed in a record file "
+                     "(a control character?); remove it")
+        return None
     except yaml.YAMLError as exc:
-        problems.add(Source(path, 1), f"cannot read YAML: {exc}")
+        problems.add(Source(path, 1), "cannot read YAML: " + " ".join(str(exc).split()))
         return None
     if node is None:
         return None
@@ -97,7 +103,7 @@ def _explain_yaml_error(exc: yaml.MarkedYAMLError, text: str) -> str:
     if exc.context and "single document" in exc.context:
         return "only one YAML document per file (remove the extra '---')"
     context = f" ({exc.context})" if exc.context else ""
-    return f"YAML syntax: {problem}{context}"
+    return " ".join(f"YAML syntax: {problem}{context}".split())  # one line, whatever the parser said
 
 
 class _Walker:

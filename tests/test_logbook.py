@@ -139,3 +139,42 @@ def test_two_concurrent_writers_lose_nothing(tmp_path):
     notes = [e.note for e in loaded.portfolio.events]
     assert len(notes) == 400 and len(set(notes)) == 400  # all landed, none twice
     assert {f"{who}-{i}" for who in ("alpha", "beta") for i in range(200)} == set(notes)
+
+
+def test_read_only_folder_is_reported_and_nothing_changes(tmp_path, monkeypatch):
+    # Tests run as root, for whom chmod does not stop writes: refuse writes the way a read-only folder would.
+    import builtins
+
+    from recordkit import logbook
+
+    path = tmp_path / "log.yaml"
+    path.write_bytes(OLD)
+    real_open = builtins.open
+
+    def read_only(file, mode="r", *args, **kwargs):
+        if any(flag in mode for flag in "wax+"):
+            raise PermissionError(errno.EACCES, "Permission denied")
+        return real_open(file, mode, *args, **kwargs)
+
+    monkeypatch.setattr(logbook, "open", read_only, raising=False)
+    with pytest.raises(LogWriteError, match="read-only"):
+        append_events(path, [NewEvent(date(2026, 2, 1), "a/b/c", Action.CLEAN)])
+    assert path.read_bytes() == OLD
+
+
+def test_a_failure_after_the_rename_says_the_event_may_be_recorded(tmp_path, monkeypatch):
+    from recordkit.logbook import MaybeWritten
+
+    path = tmp_path / "log.yaml"
+    path.write_bytes(OLD)
+    real_open = os.open
+
+    def no_folder_sync(file, flags, *args, **kwargs):
+        if os.path.isdir(file):
+            raise OSError(errno.EIO, "I/O error")
+        return real_open(file, flags, *args, **kwargs)
+
+    monkeypatch.setattr(os, "open", no_folder_sync)
+    with pytest.raises(MaybeWritten, match="may have been recorded"):
+        append_events(path, [NewEvent(date(2026, 2, 1), "a/b/c", Action.CLEAN)])
+    assert path.read_bytes().startswith(OLD) and b"2026-02-01" in path.read_bytes()  # it was in fact written

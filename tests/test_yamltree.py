@@ -89,3 +89,10 @@ def test_huge_file_is_refused_without_parsing(monkeypatch):
     monkeypatch.setattr("recordkit.yamltree.MAX_FILE_BYTES", 100)
     _, problems = read("a: " + "x" * 200 + "\n")
     assert len(problems) == 1 and "limited to 100 bytes" in problems[0][1]
+
+
+def test_control_character_names_its_line():
+    # found by the fuzz suite: PyYAML's reader error has a position, not a line
+    _, problems = read("a: 1\nb: x\x00y\n")
+    assert problems == [(2, "the character U+0000 is not allowed in a record file (a control character?); "
+                            "remove it")]
