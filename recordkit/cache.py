@@ -20,7 +20,7 @@ from . import __version__
 from .yamltree import YList, YMap
 
 CACHE_DIR = ".cache"
-FORMAT = 2
+FORMAT = 3
 RACY_SECONDS = 2.0
 
 

@@ -238,6 +238,93 @@ def node_command(records_dir, device_id, as_of, fmt) -> None:
                "interconnected alarms or a monitored system where one is required.")
 
 
+@main.command("hear")
+@click.argument("wav_file", type=click.Path(exists=True, dir_okay=False))
+@click.option("--device", "device_id", metavar="PROPERTY/UNIT/DEVICE",
+              help="The alarm that was tested (or the listening node whose clip this is).")
+@click.option("--log", "log_it", is_flag=True, help="Append a test (or, for a node, heard) event with the verdict "
+              "and keep the recording under records/evidence/. Needs --device.")
+@click.option("--calibration-db", type=float, help="Add this to dBFS to estimate dBA (from a meter reading "
+              "of a known sound with the same phone or node).")
+@click.option("--date", "when", type=click.DateTime(formats=["%Y-%m-%d", "%Y-%m-%d %H:%M", "%Y-%m-%dT%H:%M"]),
+              metavar="'YYYY-MM-DD HH:MM'", help="When it was recorded (default: now).")
+@click.option("--json", "as_json", is_flag=True, help="Print the figures as JSON.")
+@records_option
+@file_option
+def hear(wav_file, device_id, log_it, calibration_db, when, as_json, records_dir, log_file) -> None:
+    """Hear an alarm test in a recording: the tone, its on/off pattern and its level.
+
+    Reports the dominant frequency (about 3 kHz for most smoke alarms, 520 Hz for
+    low-frequency alarms), whether the sound follows temporal-3 (smoke) or
+    temporal-4 (CO) with the timing errors, the level in dBFS, and a verdict.
+    A recording shows the horn sounds; it does not prove the sensor sees smoke."""
+    from datetime import datetime
+    from pathlib import Path
+
+    from .acoustics import ALARM_DBA_AT_REFERENCE
+    from .audio import AudioError, hear_file
+
+    if log_it and not device_id:
+        raise click.UsageError("--log needs --device")
+    try:
+        hearing = hear_file(Path(wav_file), calibration_db)
+    except AudioError as exc:
+        click.echo(str(exc), err=True)
+        sys.exit(EXIT_ERRORS)
+    if as_json:
+        click.echo(json.dumps({"file": wav_file, **hearing.as_json()}, indent=1))
+    else:
+        click.echo(f"{wav_file}: {hearing.verdict}")
+        tone = f"{hearing.tone_hz:.0f} Hz ({hearing.band})" if hearing.tone_hz else "none"
+        click.echo(f"  tone {tone}; pattern {hearing.pattern}; {len(hearing.pulses)} sound(s) in "
+                   f"{hearing.duration_s:.1f} s")
+        if hearing.timing_errors_ms:
+            click.echo("  timing error (mean, ms): " + ", ".join(f"{k} {v:.0f}" for k, v in
+                                                                 hearing.timing_errors_ms.items())
+                       + "  (tolerance about ±10 %, from memory)")
+        if hearing.level_dbfs is not None:
+            click.echo(f"  level {hearing.level_dbfs:.1f} dBFS" + (" (clipped)" if hearing.clipped else ""))
+        if hearing.estimated_dba is not None:
+            click.echo(f"  about {hearing.estimated_dba:.0f} dBA at the microphone (a listed alarm gives "
+                       f"{ALARM_DBA_AT_REFERENCE:.0f} dBA at 3 m, UL 217)")
+    if not log_it:
+        return
+    _log_hearing(hearing, Path(wav_file), device_id, when or datetime.now(), records_dir, log_file)
+
+
+def _log_hearing(hearing, recording, device_id: str, when, records_dir: str, log_file) -> None:
+    from pathlib import Path
+
+    from .errors import Source
+    from .evidence import keep
+    from .intake import check_new_events
+    from .logbook import NewEvent
+    from .model import Action, Kind, Result
+
+    today = _today()
+    loaded = _load(records_dir, today)
+    if loaded.problems:
+        click.echo("Not written: fix the records first.", err=True)
+        sys.exit(EXIT_ERRORS)
+    located = loaded.portfolio.devices.get(device_id)
+    is_node = located is not None and located.device.kind is Kind.LISTENING_NODE
+    reference = keep(Path(records_dir), recording)
+    if is_node:
+        event = NewEvent(when.date(), device_id, Action.HEARD, None, "recordkit hear", hearing.verdict,
+                         reference, when.time().replace(microsecond=0))
+    else:
+        event = NewEvent(when.date(), device_id, Action.TEST, Result.PASS if hearing.alarm_heard else Result.FAIL,
+                         "recordkit hear", hearing.verdict, reference, when.time().replace(microsecond=0))
+    problems = check_new_events(loaded, [(event, Source(device_id, 0))], today)
+    if problems:
+        for problem in problems:
+            click.echo(f"Not written: {problem}", err=True)
+        sys.exit(EXIT_ERRORS)
+    _write(records_dir, [event], log_file)
+    click.echo(f"  logged {event.action}" + (f" {event.result}" if event.result else "") +
+               f" for {device_id}; recording kept as {reference}")
+
+
 @main.command("log")
 @click.argument("words", nargs=-1, required=True, metavar="[DEVICE] ACTION")
 @click.option("--unit", "unit_uid", metavar="PROPERTY/UNIT",

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import difflib
 import os
+import re
 from dataclasses import dataclass, field
 from datetime import date, datetime, time, timezone
 from pathlib import Path
@@ -22,6 +23,7 @@ from .rules import Policy, apply_policy_file
 from .yamltree import YMap, read_yaml
 
 POLICY_FILE = "policy.yaml"
+EVIDENCE = re.compile(r"^sha256:[0-9a-f]{64}$")
 CSV_SUFFIX = ".csv"   # event logs kept as CSV (the import's columns), for very long histories
 # A listening node's circuit design values (ohms, farads, hertz), all optional.
 CIRCUIT_KEYS = ("filter_r_ohm", "filter_c_farad", "corner_hz", "hold_r_ohm", "hold_c_farad")
@@ -142,7 +144,7 @@ class _Builder:
         rest = YMap((k, v) for k, v in tree.items() if k != "events")
         rest.line, rest.key_lines, rest.value_lines = tree.line, tree.key_lines, tree.value_lines
         rows = [[e.date.isoformat(), e.time.isoformat() if e.time else None, e.device, e.action.value,
-                 e.result.value if e.result else None, e.by, e.note, e.source.line]
+                 e.result.value if e.result else None, e.by, e.note, e.source.line, e.evidence]
                 for e in self.events[events_before:]]
         return {"tree": encode_tree(rest), "events": rows, "has_events": "events" in tree}
 
@@ -153,8 +155,8 @@ class _Builder:
         action, result = m.Action, m.Result
         self.events.extend(
             m.Event(date.fromisoformat(day), device, action(act), Source(path, line),
-                    result(res) if res else None, by, note, time.fromisoformat(clock) if clock else None)
-            for day, clock, device, act, res, by, note, line in payload["events"])
+                    result(res) if res else None, by, note, time.fromisoformat(clock) if clock else None, evidence)
+            for day, clock, device, act, res, by, note, line, evidence in payload["events"])
 
     def add_csv(self, data: bytes, path: str) -> None:
         """Events from a CSV log: one per row, with the same checks as YAML events."""
@@ -314,7 +316,9 @@ class _Builder:
         action = f.choice("action", m.Action, required=True)
         result = f.choice("result", m.Result)
         event = m.Event(when or date.min, device, action or m.Action.NOTE, f.source(), result,
-                        by=f.text("by"), note=f.text("note"), time=clock)
+                        by=f.text("by"), note=f.text("note"), time=clock, evidence=f.text("evidence"))
+        if event.evidence and not EVIDENCE.match(event.evidence):
+            f.error("evidence", "'evidence' is 'sha256:' and 64 hex digits (written by `recordkit hear --log`)")
         f.finish()
         return event if len(self.problems) == before else None  # unreadable: not checked further
 

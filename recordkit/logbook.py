@@ -16,7 +16,7 @@ import json
 import os
 from contextlib import contextmanager
 from dataclasses import dataclass
-from datetime import date
+from datetime import date, time
 from pathlib import Path
 from typing import Iterator
 
@@ -41,27 +41,36 @@ class NewEvent:
     result: m.Result | None = None
     by: str = ""
     note: str = ""
+    evidence: str = ""
+    when: "time | None" = None   # time of day, when known
 
     def as_data(self) -> dict:
-        data = {"date": self.date.isoformat(), "device": self.device, "action": str(self.action)}
+        data = {"date": self._date_text(), "device": self.device, "action": str(self.action)}
         if self.result:
             data["result"] = str(self.result)
         if self.by:
             data["by"] = self.by
         if self.note:
             data["note"] = self.note
+        if self.evidence:
+            data["evidence"] = self.evidence
         return data
+
+    def _date_text(self) -> str:
+        return f"{self.date.isoformat()} {self.when.strftime('%H:%M:%S')}" if self.when else self.date.isoformat()
 
     def as_yaml(self) -> str:
         """One flow mapping on one line. Free text is written as a JSON string, which is
         also a valid YAML double-quoted string, so no character can break the line."""
-        parts = [f"date: {self.date.isoformat()}", f"device: {self.device}", f"action: {self.action}"]
+        parts = [f"date: {self._date_text()}", f"device: {self.device}", f"action: {self.action}"]
         if self.result:
             parts.append(f"result: {self.result}")
         if self.by:
             parts.append(f"by: {json.dumps(self.by, ensure_ascii=False)}")
         if self.note:
             parts.append(f"note: {json.dumps(self.note, ensure_ascii=False)}")
+        if self.evidence:
+            parts.append(f"evidence: {self.evidence}")
         return "{" + ", ".join(parts) + "}"
 
 

@@ -184,6 +184,7 @@ class Event:
     by: str = ""
     note: str = ""
     time: time | None = None   # time of day, when recorded (needed to match a node's report to a test)
+    evidence: str = ""         # "sha256:<hex>" of a recording kept under records/evidence/
 
 
 @dataclass(frozen=True)

@@ -67,7 +67,8 @@ def record_schema() -> dict:
     prop = _object({"id": ID, "name": TEXT, "address": TEXT, "units": {"type": "array", "items": unit}},
                    ["id", "name", "units"])
     event = _object({"date": DAY_TIME, "device": {"type": "string", "description": "property/unit/device"},
-                     "action": _enum(m.Action), "result": _enum(m.Result), "by": TEXT, "note": TEXT},
+                     "action": _enum(m.Action), "result": _enum(m.Result), "by": TEXT, "note": TEXT,
+                     "evidence": {"type": "string", "pattern": "^sha256:[0-9a-f]{64}$"}},
                     ["date", "device", "action"])
     event["allOf"] = [{"if": {"properties": {"action": {"const": "test"}}},
                        "then": {"required": ["result"]}, "else": {"not": {"required": ["result"]}}}]

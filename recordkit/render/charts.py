@@ -133,3 +133,18 @@ def monthly_grid_svg(rows: list[tuple[str, list[tuple[date, str]]]]) -> str:
                  'no test that month · blank: not in service</text>')
     parts.append("</svg>")
     return "".join(parts)
+
+
+def envelope_svg(points: list[float], duration_s: float, label: str) -> str:
+    """A recording's loudness over time as a small line chart (0 = background, 1 = the sound's level)."""
+    width, height = 320, 60
+    if not points:
+        return ""
+    step = width / max(len(points) - 1, 1)
+    path = " ".join(f"{'M' if i == 0 else 'L'}{i * step:.1f},{height - 8 - v * (height - 16):.1f}"
+                    for i, v in enumerate(points))
+    return (f'<svg xmlns="http://www.w3.org/2000/svg" class="rk-chart rk-envelope" viewBox="0 0 {width} {height}" '
+            f'width="{width}" height="{height}" role="img"><title>{escape(label)}</title>'
+            f'<path d="{path}" fill="none" stroke="currentColor" stroke-width="1.2"/>'
+            f'<text x="2" y="{height - 1}" class="rk-note">0 s</text>'
+            f'<text x="{width - 2}" y="{height - 1}" class="rk-note" text-anchor="end">{duration_s:.1f} s</text></svg>')

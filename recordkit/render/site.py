@@ -11,6 +11,7 @@ import posixpath
 from collections import Counter
 from dataclasses import dataclass, field
 from datetime import date, timedelta
+from pathlib import Path
 
 import jinja2
 from markupsafe import Markup
@@ -21,7 +22,7 @@ from ..checks import TASK_ORDER, Finding
 from ..exports import calendar
 from ..loader import Loaded
 from ..nodes import NodeReport, node_report
-from .charts import forecast_svg, month_cells, replacement_forecast, monthly_grid_svg, yearly_costs
+from .charts import envelope_svg, forecast_svg, month_cells, replacement_forecast, monthly_grid_svg, yearly_costs
 from ..schema import record_schema
 from ..schedule import State
 from .checklist import blank_unit_html, findings_by_device, inspection_html, monthly_card_html, unit_sheet
@@ -139,6 +140,10 @@ class SiteBuilder:
         def history(events) -> Markup:
             return later(history_html(events))
 
+        def evidence(events) -> Markup:
+            html_text = self._evidence_html(events)
+            return later(html_text) if html_text else Markup("")
+
         def link(target: str, anchor: str | None = None) -> Markup:
             url = posixpath.relpath(target, posixpath.dirname(here) or ".")
             return Markup(url + (f"#{anchor}" if anchor else ""))
@@ -170,7 +175,7 @@ class SiteBuilder:
 
         return self.env.get_template(template).render(
             here=here, link=link, device_link=device_link, where=where, views=self.views,
-            finding_what=finding_what, finding_where=finding_where, history=history,
+            finding_what=finding_what, finding_where=finding_where, history=history, evidence=evidence,
             unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor,
             checklist_uri=checklist_uri, new_unit_sheet=NEW_UNIT_SHEET, calendar_file=CALENDAR,
             schema_file=SCHEMA, **context)
@@ -202,6 +207,29 @@ class SiteBuilder:
                 pages.append(Page(checklist_uri(prop, unit, monthly=True), monthly_card_html(sheet, self.as_of),
                                   static=True))
         return pages
+
+    def _evidence_html(self, events) -> str:
+        """What each recorded test sounded like: frequency, pattern, level and the envelope."""
+        from ..audio import AudioError, hear_file
+        from ..evidence import evidence_path
+
+        rows = []
+        for event in (e for e in events if e.evidence):
+            path = evidence_path(Path(self.loaded.root), event.evidence)
+            try:
+                h = hear_file(path)
+            except AudioError as exc:
+                rows.append(f"<li>{event.date}: recording not readable ({md_text(str(exc))})</li>")
+                continue
+            tone = f"{h.tone_hz:.0f} Hz" if h.tone_hz else "no tone"
+            level = f"{h.level_dbfs:.1f} dBFS" if h.level_dbfs is not None else "no level"
+            chart = envelope_svg(h.envelope, h.duration_s, f"Loudness of the recording of {event.date}")
+            rows.append(f"<li><b>{event.date} {event.action}</b>: {md_text(h.verdict)}; {tone}, "
+                        f"{md_text(h.pattern)}, {level}<br>{chart}</li>")
+        if not rows:
+            return ""
+        return ('<div class="rk-evidence"><p><b>Recorded evidence</b> (a recording shows the horn sounds; it '
+                'does not prove the sensor sees smoke)</p><ul>' + "".join(rows) + "</ul></div>")
 
     def _property_rows(self) -> list[dict]:
         """Per property: devices in service, overdue and due-soon tasks (for large portfolios)."""
