@@ -124,6 +124,10 @@ class SiteBuilder:
         self.env = jinja2.Environment(
             loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=False, finalize=md_text,
             trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined, keep_trailing_newline=True)
+        # device sections are HTML (put in after Markdown): a second environment that escapes for HTML
+        self.html_env = jinja2.Environment(loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=True,
+                                           trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined)
+        self.html_env.globals.update(badge=badge, kind_label=kind_label, task_label=TASK_LABELS.get, as_of=as_of)
         self.env.globals.update(badge=badge, anchor=anchor, front_title=front_title, task_label=TASK_LABELS.get, kind_label=kind_label,
                                 when=lambda f: when(f, as_of), as_of=as_of, short_caution=SHORT,
                                 state_labels=STATE_LABELS)
@@ -137,12 +141,11 @@ class SiteBuilder:
             self.inserts[placeholder] = html_text
             return Markup(f"\n\n{placeholder}\n\n")
 
-        def history(events) -> Markup:
-            return later(history_html(events))
-
-        def evidence(events) -> Markup:
-            html_text = self._evidence_html(events)
-            return later(html_text) if html_text else Markup("")
+        def device_section(view: DeviceView) -> Markup:
+            return later(self.html_env.get_template("_device.html.j2").render(
+                v=view, unit=context["unit"], views=self.views, device_anchor=device_anchor,
+                evidence_html=lambda events: Markup(self._evidence_html(events)),
+                history_html=history_html, when=lambda f: when(f, self.as_of)))
 
         def link(target: str, anchor: str | None = None) -> Markup:
             url = posixpath.relpath(target, posixpath.dirname(here) or ".")
@@ -175,7 +178,7 @@ class SiteBuilder:
 
         return self.env.get_template(template).render(
             here=here, link=link, device_link=device_link, where=where, views=self.views,
-            finding_what=finding_what, finding_where=finding_where, history=history, evidence=evidence,
+            finding_what=finding_what, finding_where=finding_where, device_section=device_section,
             unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor,
             checklist_uri=checklist_uri, new_unit_sheet=NEW_UNIT_SHEET, calendar_file=CALENDAR,
             schema_file=SCHEMA, **context)
