@@ -57,7 +57,15 @@ def generate(out: Path, units: int, years: int, seed: int = 7, as_of: date = dat
                 counts["devices"] += 1
                 uid_full = f"{bid}/{uid}/{did}"
                 day = max(installed, start) + timedelta(days=rng.randint(0, 27))
-                while day <= as_of:
+                replaced = None
+                if rng.random() < 0.05 and (as_of - day).days > 120:  # now and then a device is replaced
+                    replaced = day + timedelta(days=rng.randint(60, max(61, (as_of - day).days - 30)))
+                    new_id = f"{did}-r"
+                    prop_lines.append(f"        - {{id: {new_id}, kind: {kind}, room: {room}, power: sealed, "
+                                      f"manufactured: {replaced - timedelta(days=90):%Y-%m}, installed: {replaced}}}")
+                    counts["devices"] += 1
+                    events.append((replaced, f"device: {uid_full}, action: replace, by: agent"))
+                while day <= as_of and (replaced is None or day < replaced):
                     if rng.random() > 0.12:  # some months are missed
                         result = "fail" if rng.random() < 0.01 else "pass"
                         events.append((day, f"device: {uid_full}, action: test, result: {result}, by: tenant"))
