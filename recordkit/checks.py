@@ -15,6 +15,7 @@ from typing import Callable, Iterable, Iterator
 from . import model as m
 from .coverage import COVERAGE_CHECKS
 from .errors import Source
+from .nodes import node_report
 from .rules import Interval, Policy, Rule
 from .schedule import State, add, state_of
 
@@ -169,8 +170,6 @@ def coverage_gaps(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterat
 
 def listening_node_findings(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterator[Finding]:
     """Can each node hear its alarms (level, filter, hold circuit), and did it report their tests?"""
-    from .nodes import node_report
-
     for located in active_devices(portfolio, as_of):
         node = located.device
         if node.kind is not m.Kind.LISTENING_NODE:

@@ -37,6 +37,16 @@ def _load(records_dir: str, as_of: date) -> Loaded:
     return loaded
 
 
+def _load_or_exit(records_dir: str, as_of: date, refusal: str = "") -> Loaded:
+    """The records, or exit 1 after printing their problems (and what was not done)."""
+    loaded = _load(records_dir, as_of)
+    if loaded.problems:
+        if refusal:
+            click.echo(refusal, err=True)
+        sys.exit(EXIT_ERRORS)
+    return loaded
+
+
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(package_name="recordkit")
 def main() -> None:
@@ -54,9 +64,7 @@ def check(records_dir: str, as_of) -> None:
 
     Exit status 0 when the records are sound, 1 when there are problems."""
     day = _as_of(as_of)
-    loaded = _load(records_dir, day)
-    if loaded.problems:
-        sys.exit(EXIT_ERRORS)
+    loaded = _load_or_exit(records_dir, day)
     portfolio = loaded.portfolio
     units = sum(len(p.units) for p in portfolio.properties)
     click.echo(f"{records_dir}: {len(loaded.files)} files, {len(portfolio.properties)} properties, "
@@ -97,9 +105,7 @@ def status(records_dir: str, as_of, fmt: str, show_ok: bool) -> None:
 @as_of_option
 def rules(records_dir: str, as_of) -> None:
     """List every rule in force: value, source, and whether policy.yaml set it."""
-    loaded = _load(records_dir, _as_of(as_of))
-    if loaded.problems:
-        sys.exit(EXIT_ERRORS)
+    loaded = _load_or_exit(records_dir, _as_of(as_of))
     for rule in loaded.policy:
         where = f"local, {rule.defined_at}" if rule.local else "default"
         click.echo(f"{rule.name}: {rule.value}  [{where}]")
@@ -139,9 +145,7 @@ def checklist(records_dir: str, property_id: str | None, unit_id: str | None, as
         if sheet == "monthly" and not unit_id:
             raise click.UsageError("--sheet monthly needs --unit")
         day = _as_of(as_of)
-        loaded = _load(records_dir, day)
-        if loaded.problems:
-            sys.exit(EXIT_ERRORS)
+        loaded = _load_or_exit(records_dir, day)
         findings = evaluate(loaded.portfolio, loaded.policy, day)
         try:
             sheets = property_sheets(loaded, findings, property_id, day, unit_id)
@@ -205,9 +209,7 @@ def node_command(records_dir, device_id, as_of, fmt) -> None:
     from .nodes import node_report
 
     day = _as_of(as_of)
-    loaded = _load(records_dir, day)
-    if loaded.problems:
-        sys.exit(EXIT_ERRORS)
+    loaded = _load_or_exit(records_dir, day)
     located = loaded.portfolio.devices.get(device_id)
     if located is None or located.device.kind is not Kind.LISTENING_NODE:
         nodes = [uid for uid, loc in loaded.portfolio.devices.items() if loc.device.kind is Kind.LISTENING_NODE]
@@ -302,10 +304,7 @@ def _log_hearing(hearing, recording, device_id: str, when, records_dir: str, log
     from .model import Action, Kind, Result
 
     today = _today()
-    loaded = _load(records_dir, today)
-    if loaded.problems:
-        click.echo("Not written: fix the records first.", err=True)
-        sys.exit(EXIT_ERRORS)
+    loaded = _load_or_exit(records_dir, today, "Not written: fix the records first.")
     located = loaded.portfolio.devices.get(device_id)
     is_node = located is not None and located.device.kind is Kind.LISTENING_NODE
     reference = keep(Path(records_dir), recording)
@@ -367,10 +366,7 @@ def log_command(words, unit_uid, result, when, by, note, records_dir, log_file) 
     except ValueError:
         raise click.BadParameter(f"{action_word!r}; choose from {', '.join(a.value for a in Action)}",
                                  param_hint="ACTION") from None
-    loaded = _load(records_dir, today)
-    if loaded.problems:
-        click.echo("Not written: fix the records first.", err=True)
-        sys.exit(EXIT_ERRORS)
+    loaded = _load_or_exit(records_dir, today, "Not written: fix the records first.")
     try:
         devices = unit_devices(loaded, unit_uid, day) if unit_uid else [words[0]]
     except IntakeError as exc:
@@ -414,10 +410,7 @@ def import_command(csv_file, records_dir, dayfirst, skip_bad, dry_run, log_file)
     from .intake import IntakeError, read_csv
 
     today = _today()
-    loaded = _load(records_dir, today)
-    if loaded.problems:
-        click.echo("Not imported: fix the records first.", err=True)
-        sys.exit(EXIT_ERRORS)
+    loaded = _load_or_exit(records_dir, today, "Not imported: fix the records first.")
     try:
         sheet = read_csv(Path(csv_file), loaded, today, dayfirst)
     except IntakeError as exc:
@@ -456,9 +449,7 @@ def export_command(records_dir, as_of, fmt, table, out) -> None:
     from .intake import events_csv_rows
 
     day = _as_of(as_of)
-    loaded = _load(records_dir, day)
-    if loaded.problems:
-        sys.exit(EXIT_ERRORS)
+    loaded = _load_or_exit(records_dir, day)
     findings = evaluate(loaded.portfolio, loaded.policy, day)
     if fmt == "json":
         text = json.dumps(export_json(loaded.portfolio, findings, day), indent=1, ensure_ascii=False) + "\n"
@@ -487,9 +478,7 @@ def calendar_command(records_dir, as_of, out) -> None:
     from .exports import calendar
 
     day = _as_of(as_of)
-    loaded = _load(records_dir, day)
-    if loaded.problems:
-        sys.exit(EXIT_ERRORS)
+    loaded = _load_or_exit(records_dir, day)
     findings = evaluate(loaded.portfolio, loaded.policy, day)
     with open(out, "wb") as handle:
         handle.write(calendar(loaded.portfolio, findings, day).to_ical())
