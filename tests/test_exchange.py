@@ -284,3 +284,22 @@ def test_schema_keys_match_what_the_loader_accepts(records):
         allowed = set(messages[0].split("allowed here: ")[1].rstrip(")").split(", "))
         assert allowed == set(sub_schema["properties"]), name
         shutil.rmtree(folder)
+
+
+def test_hostile_text_stays_inert_in_the_calendar(records, tmp_path):
+    from icalendar import Calendar
+
+    evil = "Evil\\r\\nBEGIN:VEVENT\\r\\nSUMMARY:injected\\r\\nEND:VEVENT, <script>x</script>"
+    folder = records({"h.yaml": HOUSE.replace("name: Test House", f'name: "{evil}"')
+                      + device_yaml(id="s1", kind="smoke", room="hall", power="sealed", manufactured="2020-01",
+                                    installed="2020-02-01")
+                      + "events:\n  - {date: 2026-11-01, device: test-house/main/s1, action: test, result: fail, "
+                        f'note: "{evil}"}}\n'})
+    out = tmp_path / "due.ics"
+    assert run_cli("calendar", str(folder), "--as-of", AS_OF, "-o", str(out)).returncode == 0
+    events = list(Calendar.from_ical(out.read_bytes()).walk("VEVENT"))
+    status = json.loads(run_cli("status", str(folder), "--as-of", AS_OF, "--format", "json").stdout)
+    assert len(events) == len([i for i in status["items"] if i["task"] != "coverage"])  # nothing injected
+    assert not any(str(e["SUMMARY"]) == "injected" for e in events)
+    fix = next(e for e in events if str(e["X-RECORDKIT-TASK"]) == "fix")
+    assert "BEGIN:VEVENT" in str(fix["DESCRIPTION"])  # kept as the text it is
