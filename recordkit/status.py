@@ -27,7 +27,7 @@ def status_json(findings: list[Finding], as_of: date, root: str) -> dict:
 
 def _when(finding: Finding, as_of: date) -> str:
     if finding.due is None:
-        return "now (date unknown)"
+        return "now (date unknown)" if finding.task == "replace" else "now"
     days = (finding.due - as_of).days
     if finding.state is State.OVERDUE:
         return f"since {finding.due}" + (f" ({-days} days)" if days < 0 else "")
