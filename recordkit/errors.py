@@ -9,7 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 
-@dataclass(frozen=True, order=True)
+@dataclass(frozen=True, order=True, slots=True)  # slots: millions of these at a managing agent's scale
 class Source:
     """Where a record came from: a path (as given, relative where possible) and a 1-based line."""
 

@@ -174,7 +174,7 @@ class Property:
     units: tuple[Unit, ...] = ()
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)  # slots: a long history holds millions of events
 class Event:
     date: date
     device: str          # property/unit/device
