@@ -111,11 +111,12 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             files.append(File.generated(config, page.src_uri, content=page.content, inclusion=inclusion))
         for asset in (CSS, SHIM):
             files.append(File.generated(config, asset, content=(ASSETS / Path(asset).name).read_bytes()))
+        self.pages = []  # the files hold the content now; keep one copy, not two
         return files
 
     def on_post_page(self, output: str, /, *, page, config: MkDocsConfig) -> str:
         """Put the long history tables in, after Markdown and the search index have seen the page."""
-        inserts = self.inserts.get(page.file.src_uri)
+        inserts = self.inserts.pop(page.file.src_uri, None)  # each page once: free it when used
         if inserts:
             for placeholder, html in inserts.items():
                 output = output.replace(f"<p>{placeholder}</p>", html, 1)
