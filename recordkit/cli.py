@@ -475,13 +475,13 @@ def calendar_command(records_dir, as_of, out) -> None:
 
     Each event keeps the same UID from one export to the next, so importing a
     newer file into a calendar updates the events instead of adding copies."""
-    from .exports import calendar
+    from .exports import calendar_ics
 
     day = _as_of(as_of)
     loaded = _load_or_exit(records_dir, day)
     findings = evaluate(loaded.portfolio, loaded.policy, day)
     with open(out, "wb") as handle:
-        handle.write(calendar(loaded.portfolio, findings, day).to_ical())
+        handle.write(calendar_ics(loaded.portfolio, findings, day))
     click.echo(f"Wrote {len(findings)} task(s) to {out}")
 
 

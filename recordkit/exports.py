@@ -51,19 +51,31 @@ def export_json(portfolio: m.Portfolio, findings: list[Finding], as_of: date) ->
             "events": [{k: v for k, v in zip(header, row) if v} for row in rows]}
 
 
-def calendar(portfolio: m.Portfolio, findings: list[Finding], as_of: date):
-    """An icalendar.Calendar: one all-day event per task, with a reminder.
+def calendar_ics(portfolio: m.Portfolio, findings: list[Finding], as_of: date) -> bytes:
+    """An iCalendar file: one all-day event per task, with a reminder.
 
     UIDs are the device and task, so importing a newer file updates the same
     events instead of adding copies; SEQUENCE grows with the as-of date. A task
-    whose date is unknown (replace now) is placed on the as-of date.
+    whose date is unknown (replace now) is placed on the as-of date. Each event
+    is serialised as it is made, so a large portfolio never holds them all.
     """
-    from icalendar import Alarm, Calendar, Event
+    from icalendar import Calendar
 
     cal = Calendar()
     cal.add("prodid", "-//recordkit//alarm maintenance tasks//EN")
     cal.add("version", "2.0")
     cal.add("x-wr-calname", "Alarm maintenance tasks")
+    end = b"END:VCALENDAR\r\n"
+    head = cal.to_ical()
+    assert head.endswith(end)
+    events = (event.to_ical() for event in calendar_events(portfolio, findings, as_of))
+    return b"".join([head[: -len(end)], *events, end])
+
+
+def calendar_events(portfolio: m.Portfolio, findings: list[Finding], as_of: date):
+    """The tasks as icalendar VEVENTs (coverage gaps, which have no date, are left out)."""
+    from icalendar import Alarm, Event
+
     stamp = datetime.combine(as_of, time(0, 0), tzinfo=timezone.utc)
     sequence = (as_of - date(2000, 1, 1)).days
     for finding in findings:
@@ -96,5 +108,4 @@ def calendar(portfolio: m.Portfolio, findings: list[Finding], as_of: date):
         # 09:00 on the day that many days before the (all-day) event starts
         alarm.add("trigger", timedelta(days=-REMINDER_DAYS[finding.task], hours=9))
         event.add_component(alarm)
-        cal.add_component(event)
-    return cal
+        yield event

@@ -19,7 +19,7 @@ from markupsafe import Markup
 from .. import model as m
 from ..cautions import CAUTIONS, SHORT
 from ..checks import TASK_ORDER, Finding
-from ..exports import calendar
+from ..exports import calendar_ics
 from ..loader import Loaded
 from ..nodes import NodeReport, node_report
 from .charts import envelope_svg, forecast_svg, month_cells, replacement_forecast, monthly_grid_svg, yearly_costs
@@ -186,7 +186,7 @@ class SiteBuilder:
     # ---- pages -------------------------------------------------------------------------
     def pages(self) -> list[Page]:
         pages = [self.overview(), self.rules(), self.about(), Page(NEW_UNIT_SHEET, blank_unit_html(), static=True),
-                 Page(CALENDAR, calendar(self.portfolio, self.findings, self.as_of).to_ical().decode(), static=True),
+                 Page(CALENDAR, calendar_ics(self.portfolio, self.findings, self.as_of).decode(), static=True),
                  Page(SCHEMA, json.dumps(record_schema(), indent=2) + "\n", static=True)]
         many = len(self.portfolio.properties) > NAV_PROPERTIES
         if many:
