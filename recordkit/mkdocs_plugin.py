@@ -7,8 +7,12 @@ under `mkdocs serve`.
 """
 from __future__ import annotations
 
+import json
 import logging
 import os
+import shutil
+import tempfile
+from dataclasses import replace
 from datetime import date
 from pathlib import Path
 
@@ -34,7 +38,8 @@ ENV_AS_OF = "RECORDKIT_AS_OF"
 # Markdown features the generated pages rely on.
 NEEDED_EXTENSIONS = ("tables", "attr_list", "md_in_html", "admonition", "toc")
 CSS = "assets/recordkit.css"
-SHIM = "assets/iframe-worker-shim.js"  # vendored (MIT) so search works from disk without a CDN
+SHIM = "assets/iframe-worker-shim.js"
+INSERTS = ".inserts.json"  # vendored (MIT) so search works from disk without a CDN
 
 
 class RecordkitConfig(base.Config):
@@ -46,7 +51,7 @@ class RecordkitConfig(base.Config):
 class RecordkitPlugin(BasePlugin[RecordkitConfig]):
     def __init__(self) -> None:
         self.pages: list[Page] = []
-        self.inserts: dict[str, dict[str, str]] = {}
+        self.spool: Path | None = None
         self.records_dir: Path | None = None
 
     def on_config(self, config: MkDocsConfig) -> MkDocsConfig:
@@ -76,8 +81,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                                                local=True))
         loaded.policy = policy
         findings = evaluate(loaded.portfolio, policy, as_of)
-        self.pages = site_pages(loaded, findings, as_of)
-        self.inserts = {page.src_uri: page.inserts for page in self.pages if page.inserts}
+        self._spool_pages(site_pages(loaded, findings, as_of))
         log.info("recordkit: %d devices, %d tasks as of %s", len(loaded.portfolio.devices), len(findings), as_of)
 
         for name in NEEDED_EXTENSIONS:
@@ -92,6 +96,29 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         if SHORT not in (config.copyright or ""):
             config.copyright = f"{config.copyright} · {SHORT}" if config.copyright else SHORT
         return config
+
+    def _spool_pages(self, pages) -> None:
+        """Write the generated pages to a temporary folder that MkDocs reads them from: a portfolio of
+        thousands of units then never holds every page in memory at once."""
+        self._clean_spool()
+        self.spool = Path(tempfile.mkdtemp(prefix="recordkit-site-"))
+        self.pages = []
+        for page in pages:
+            target = self.spool / page.src_uri
+            target.parent.mkdir(parents=True, exist_ok=True)
+            target.write_text(page.content, encoding="utf-8")
+            if page.inserts:
+                target.with_name(target.name + INSERTS).write_text(json.dumps(page.inserts), encoding="utf-8")
+            self.pages.append(replace(page, content="", inserts={}))  # what and where, not the text
+
+    def _clean_spool(self) -> None:
+        if self.spool:
+            shutil.rmtree(self.spool, ignore_errors=True)
+            self.spool = None
+
+    def page_text(self, src_uri: str) -> str:
+        """A generated page's text as written for MkDocs (for checks and tests)."""
+        return (self.spool / src_uri).read_text(encoding="utf-8")
 
     def _as_of(self) -> date:
         text = os.environ.get(ENV_AS_OF) or self.config.as_of
@@ -108,19 +135,25 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                 raise PluginError(f"recordkit: {page.src_uri} is generated from the records; "
                                   f"remove the hand-written file of that name from {config.docs_dir}")
             inclusion = InclusionLevel.UNDEFINED if page.in_nav and not page.static else InclusionLevel.NOT_IN_NAV
-            files.append(File.generated(config, page.src_uri, content=page.content, inclusion=inclusion))
+            files.append(File.generated(config, page.src_uri, abs_src_path=str(self.spool / page.src_uri),
+                                        inclusion=inclusion))
         for asset in (CSS, SHIM):
-            files.append(File.generated(config, asset, content=(ASSETS / Path(asset).name).read_bytes()))
-        self.pages = []  # the files hold the content now; keep one copy, not two
+            files.append(File.generated(config, asset, abs_src_path=str(ASSETS / Path(asset).name)))
         return files
 
     def on_post_page(self, output: str, /, *, page, config: MkDocsConfig) -> str:
         """Put the long history tables in, after Markdown and the search index have seen the page."""
-        inserts = self.inserts.pop(page.file.src_uri, None)  # each page once: free it when used
-        if inserts:
-            for placeholder, html in inserts.items():
+        spooled = self.spool / (page.file.src_uri + INSERTS) if self.spool else None
+        if spooled and spooled.exists():
+            for placeholder, html in json.loads(spooled.read_text(encoding="utf-8")).items():
                 output = output.replace(f"<p>{placeholder}</p>", html, 1)
         return output
+
+    def on_post_build(self, *, config: MkDocsConfig) -> None:
+        self._clean_spool()
+
+    def on_build_error(self, *, error: Exception) -> None:
+        self._clean_spool()
 
     def on_serve(self, server, /, *, config: MkDocsConfig, builder):
         if self.records_dir:

@@ -8,31 +8,40 @@ from mkdocs.exceptions import PluginError
 from .conftest import DEMO_AS_OF, REPO
 
 
-def configured(monkeypatch, **options):
-    monkeypatch.delenv("RECORDKIT_RECORDS", raising=False)
-    monkeypatch.setenv("RECORDKIT_AS_OF", DEMO_AS_OF.isoformat())
-    monkeypatch.chdir(REPO)
-    config = load_config(str(REPO / "mkdocs.yml"))
-    plugin = config.plugins["recordkit"]
-    plugin.config.update(options)
-    return config, plugin
+@pytest.fixture
+def configured(monkeypatch):
+    """configured(**options) -> (config, plugin); the plugin's temporary page folder is removed after."""
+    plugins = []
+
+    def make(**options):
+        monkeypatch.delenv("RECORDKIT_RECORDS", raising=False)
+        monkeypatch.setenv("RECORDKIT_AS_OF", DEMO_AS_OF.isoformat())
+        monkeypatch.chdir(REPO)
+        config = load_config(str(REPO / "mkdocs.yml"))
+        plugin = config.plugins["recordkit"]
+        plugin.config.update(options)
+        plugins.append(plugin)
+        return config, plugin
+    yield make
+    for plugin in plugins:
+        plugin.on_post_build(config=None)
 
 
-def test_due_soon_days_option_becomes_a_local_rule(monkeypatch):
-    config, plugin = configured(monkeypatch, due_soon_days={"replace": 200})
+def test_due_soon_days_option_becomes_a_local_rule(configured):
+    config, plugin = configured(due_soon_days={"replace": 200})
     plugin.on_config(config)
-    rules = next(p for p in plugin.pages if p.src_uri == "rules.md").content
+    rules = plugin.page_text("rules.md")
     assert "200 days" in rules and "plugins.recordkit.due&#95;soon&#95;days" in rules
 
 
-def test_due_soon_days_rejects_an_unknown_task(monkeypatch):
-    config, plugin = configured(monkeypatch, due_soon_days={"paint": 3})
+def test_due_soon_days_rejects_an_unknown_task(configured):
+    config, plugin = configured(due_soon_days={"paint": 3})
     with pytest.raises(PluginError, match="unknown task 'paint'"):
         plugin.on_config(config)
 
 
-def test_serve_watches_the_records_folder(monkeypatch):
-    config, plugin = configured(monkeypatch)
+def test_serve_watches_the_records_folder(configured):
+    config, plugin = configured()
     plugin.on_config(config)
 
     class Server:
@@ -45,10 +54,20 @@ def test_serve_watches_the_records_folder(monkeypatch):
     assert [Path(p).resolve() for p in server.watched] == [REPO / "records"]
 
 
-def test_generated_unit_pages_stay_out_of_the_nav(monkeypatch):
+def test_generated_unit_pages_stay_out_of_the_nav(configured):
     # Material renders the whole nav into every page: units in the nav would make builds quadratic.
-    config, plugin = configured(monkeypatch)
+    config, plugin = configured()
     plugin.on_config(config)
     pages = [p for p in plugin.pages if not p.static]
     assert all(not p.in_nav for p in pages if p.src_uri.count("/") == 2)
     assert all(p.in_nav for p in pages if p.src_uri.count("/") < 2)
+
+
+def test_the_temporary_page_folder_is_removed_after_a_build(configured, tmp_path):
+    from mkdocs.commands.build import build
+
+    config, plugin = configured()
+    config.site_dir = str(tmp_path / "site")
+    build(config)
+    assert plugin.spool is None
+    assert (tmp_path / "site/properties/tansy-house/flat-1.html").is_file()

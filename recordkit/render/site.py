@@ -10,6 +10,7 @@ import json
 import posixpath
 from collections import Counter
 from dataclasses import dataclass, field
+from typing import Iterator
 from datetime import date, timedelta
 from pathlib import Path
 
@@ -184,32 +185,35 @@ class SiteBuilder:
             schema_file=SCHEMA, **context)
 
     # ---- pages -------------------------------------------------------------------------
-    def pages(self) -> list[Page]:
-        pages = [self.overview(), self.rules(), self.about(), Page(NEW_UNIT_SHEET, blank_unit_html(), static=True),
-                 Page(CALENDAR, calendar_ics(self.portfolio, self.findings, self.as_of).decode(), static=True),
-                 Page(SCHEMA, json.dumps(record_schema(), indent=2) + "\n", static=True)]
+    def pages(self) -> Iterator[Page]:
+        """Every page, one at a time, so a large portfolio's pages need not all be in memory at once."""
+        yield self.overview()
+        yield self.rules()
+        yield self.about()
+        yield Page(NEW_UNIT_SHEET, blank_unit_html(), static=True)
+        yield Page(CALENDAR, calendar_ics(self.portfolio, self.findings, self.as_of).decode(), static=True)
+        yield Page(SCHEMA, json.dumps(record_schema(), indent=2) + "\n", static=True)
         many = len(self.portfolio.properties) > NAV_PROPERTIES
         if many:
-            pages.append(Page(PROPERTIES_INDEX, self._render("properties.md.j2", PROPERTIES_INDEX,
-                                                             rows=self._property_rows())))
+            yield Page(PROPERTIES_INDEX, self._render("properties.md.j2", PROPERTIES_INDEX,
+                                                      rows=self._property_rows()))
         overdue_by_property: dict[str, list[Finding]] = {}
         for finding in sorted((f for f in self.findings if f.state is State.OVERDUE),
                               key=lambda f: (f.due or date.min, f.device)):
             overdue_by_property.setdefault(finding.unit.split("/", 1)[0], []).append(finding)
         for prop in self.portfolio.properties:
             overdue = overdue_by_property.get(prop.id, [])
-            pages.append(Page(property_uri(prop), self._render("property.md.j2", property_uri(prop), prop=prop,
-                                                                 units=[self._unit_summary(prop, u) for u in prop.units],
-                                                                 devices=self._active(prop.units), overdue=overdue),
-                              in_nav=not many))
+            yield Page(property_uri(prop), self._render("property.md.j2", property_uri(prop), prop=prop,
+                                                         units=[self._unit_summary(prop, u) for u in prop.units],
+                                                         devices=self._active(prop.units), overdue=overdue),
+                       in_nav=not many)
             sheets = [unit_sheet(self.portfolio, self.by_device, prop, unit, self.as_of) for unit in prop.units]
-            pages.append(Page(checklist_uri(prop), inspection_html(sheets, self.as_of), static=True))
+            yield Page(checklist_uri(prop), inspection_html(sheets, self.as_of), static=True)
             for unit, sheet in zip(prop.units, sheets):
-                pages.append(self.unit_page(prop, unit))
-                pages.append(Page(checklist_uri(prop, unit), inspection_html([sheet], self.as_of), static=True))
-                pages.append(Page(checklist_uri(prop, unit, monthly=True), monthly_card_html(sheet, self.as_of),
-                                  static=True))
-        return pages
+                yield self.unit_page(prop, unit)
+                yield Page(checklist_uri(prop, unit), inspection_html([sheet], self.as_of), static=True)
+                yield Page(checklist_uri(prop, unit, monthly=True), monthly_card_html(sheet, self.as_of),
+                           static=True)
 
     def _evidence_html(self, events) -> str:
         """What each recorded test sounded like: frequency, pattern, level and the envelope."""
@@ -299,7 +303,7 @@ class SiteBuilder:
         return Page("about.md", self._render("about.md.j2", "about.md", cautions=CAUTIONS))
 
 
-def site_pages(loaded: Loaded, findings: list[Finding], as_of: date) -> list[Page]:
+def site_pages(loaded: Loaded, findings: list[Finding], as_of: date) -> Iterator[Page]:
     return SiteBuilder(loaded, findings, as_of).pages()
 
 
