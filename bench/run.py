@@ -12,7 +12,6 @@ from __future__ import annotations
 import csv
 import os
 import resource
-import shutil
 import subprocess
 import sys
 import tempfile

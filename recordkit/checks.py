@@ -72,7 +72,12 @@ def _finding(located: m.Located, task: Task, due: date | None, as_of: date, rule
                    rule.name, rule.source, rule.local, device.source, located.unit.uid)
 
 
-def _last(events: Iterable[m.Event], *actions: m.Action) -> m.Event | None:
+def urgency(finding: Finding) -> tuple:
+    """Sort key for 'most pressing first': overdue before due soon before ok, then the earliest date."""
+    return finding.state.rank, finding.due or date.min, TASK_ORDER.get(finding.task, 9)
+
+
+def last_event(events: Iterable[m.Event], *actions: m.Action) -> m.Event | None:
     last = None
     for event in events:
         if event.action in actions:
@@ -126,7 +131,7 @@ def test_due(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterator[Fi
         device = located.device
         # a listening node's report of a real or test alarm shows it works, like a test
         actions = (m.Action.TEST, m.Action.HEARD) if device.kind is m.Kind.LISTENING_NODE else (m.Action.TEST,)
-        last = _last(portfolio.events_for(device.uid), *actions)
+        last = last_event(portfolio.events_for(device.uid), *actions)
         start, since = (last.date, f"last tested {last.date}") if last else (device.installed,
                                                                               f"never tested; installed {device.installed}")
         yield _finding(located, "test", add(start, rule.value), as_of, rule, window,
@@ -139,7 +144,7 @@ def battery_due(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterator
         device = located.device
         if device.power not in (m.Power.BATTERY, m.Power.MAINS_BACKUP):
             continue
-        last = _last(portfolio.events_for(device.uid), m.Action.BATTERY)
+        last = last_event(portfolio.events_for(device.uid), m.Action.BATTERY)
         start, since = (last.date, f"battery last changed {last.date}") if last else (
             device.installed, f"no battery change logged; installed {device.installed}")
         yield _finding(located, "battery", add(start, rule.value), as_of, rule, window,
@@ -149,7 +154,7 @@ def battery_due(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterator
 def failed_test(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterator[Finding]:
     rule = policy["failed_test"]
     for located in active_devices(portfolio, as_of):
-        last = _last(portfolio.events_for(located.device.uid), m.Action.TEST)
+        last = last_event(portfolio.events_for(located.device.uid), m.Action.TEST)
         if last and last.result is m.Result.FAIL:
             note = f" ({last.note})" if last.note else ""
             yield _finding(located, "fix", last.date, as_of, rule, None,

@@ -5,7 +5,7 @@ from datetime import date, datetime, time, timedelta, timezone
 
 from . import model as m
 from .cautions import SHORT
-from .checks import TASK_ORDER, Finding, active_devices
+from .checks import Finding, active_devices, urgency
 from .intake import events_csv_rows
 
 DEVICE_COLUMNS = ("device", "property", "unit", "room", "kind", "power", "manufactured", "installed",
@@ -28,7 +28,7 @@ def device_rows(portfolio: m.Portfolio, findings: list[Finding], as_of: date) ->
     for located in active_devices(portfolio, as_of):
         device, mine = located.device, by_device.get(located.device.uid, [])
         tasks = {f.task: f for f in mine}
-        first = min(mine, default=None, key=lambda f: (f.state.rank, f.due or date.min, TASK_ORDER[f.task]))
+        first = min(mine, default=None, key=urgency)
         room = located.unit.room(device.room)
         rows.append({
             "device": device.uid, "property": located.property.id, "unit": located.unit.id,

@@ -6,7 +6,8 @@ point the user back to the line they wrote.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import date, time
+from datetime import date
+from datetime import time as time_of_day
 from enum import StrEnum
 from functools import cached_property
 
@@ -183,7 +184,7 @@ class Event:
     result: Result | None = None
     by: str = ""
     note: str = ""
-    time: time | None = None   # time of day, when recorded (needed to match a node's report to a test)
+    time: time_of_day | None = None   # time of day, when recorded (needed to match a node's report to a test)
     evidence: str = ""         # "sha256:<hex>" of a recording kept under records/evidence/
 
 

@@ -14,7 +14,7 @@ from dateutil.relativedelta import relativedelta
 
 from .. import model as m
 from ..cautions import CAUTIONS, SHORT
-from ..checks import TASK_ORDER, Finding
+from ..checks import Finding, last_event, urgency
 from ..loader import Loaded
 from ..schedule import State
 from .labels import STATE_LABELS, TASK_LABELS, TEMPLATES, kind_label
@@ -62,10 +62,6 @@ def _due_text(finding: Finding) -> str:
     return f"{label} {'since' if finding.state is State.OVERDUE else 'by'} {finding.due}"
 
 
-def _last(events, action: m.Action) -> m.Event | None:
-    return next((e for e in reversed(events) if e.action is action), None)
-
-
 def findings_by_device(findings: list[Finding]) -> dict[str, list[Finding]]:
     by_device: dict[str, list[Finding]] = {}
     for finding in findings:
@@ -81,10 +77,9 @@ def unit_sheet(portfolio: m.Portfolio, by_device: dict[str, list[Finding]], prop
               if (retired := portfolio.retired_on(d.uid)) is None or retired > as_of]
     for device in sorted(active, key=lambda d: room_order.get(d.room, len(room_order))):
         events = portfolio.events_for(device.uid)
-        mine = sorted(by_device.get(device.uid, []),
-                      key=lambda f: (f.state.rank, f.due or date.min, TASK_ORDER[f.task]))
+        mine = sorted(by_device.get(device.uid, []), key=urgency)
         replace = next((f for f in mine if f.task == "replace"), None)
-        test, battery = _last(events, m.Action.TEST), _last(events, m.Action.BATTERY)
+        test, battery = last_event(events, m.Action.TEST), last_event(events, m.Action.BATTERY)
         has_battery = device.power in (m.Power.BATTERY, m.Power.MAINS_BACKUP)
         room = unit.room(device.room)
         rows.append(SheetRow(

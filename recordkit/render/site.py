@@ -19,7 +19,7 @@ from markupsafe import Markup
 
 from .. import model as m
 from ..cautions import CAUTIONS, SHORT
-from ..checks import TASK_ORDER, Finding
+from ..checks import TASK_ORDER, Finding, urgency
 from ..exports import calendar_ics
 from ..loader import Loaded
 from ..nodes import NodeReport, node_report
@@ -47,13 +47,6 @@ class Page:
     # HTML to put in place of placeholder paragraphs after Markdown (and search) have run: long
     # histories skip both, which keeps the build linear and fast at a landlord's scale.
     inserts: dict[str, str] = field(default_factory=dict)
-
-    def with_inserts(self) -> str:
-        """The page as one Markdown document, inserts in place (for uses other than MkDocs)."""
-        text = self.content
-        for placeholder, html_text in self.inserts.items():
-            text = text.replace(placeholder, html_text)
-        return text
 
 
 def checklist_uri(prop: m.Property, unit: m.Unit | None = None, monthly: bool = False) -> str:
@@ -99,8 +92,7 @@ class DeviceView:
     @property
     def next(self) -> Finding | None:
         """The most pressing task: overdue first, then the earliest date."""
-        return min(self.findings, default=None,
-                   key=lambda f: (f.state.rank, f.due or date.min, TASK_ORDER[f.task]))
+        return min(self.findings, default=None, key=urgency)
 
     node: "NodeReport | None" = None   # listening nodes: what the node can hear, and its record
 
