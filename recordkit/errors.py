@@ -30,11 +30,15 @@ class Problem:
         return f"{self.source}: {self.message}"
 
 
+_ONE_LINE = str.maketrans({"\n": "\\n", "\r": "\\r", "\t": "\\t"})
+
+
 class Problems(list):
     """A list of problems with a helper to add one at a source."""
 
     def add(self, source: Source, message: str) -> None:
-        self.append(Problem(source, message))
+        # one line per problem, whatever text from the record it quotes (found by the fuzz suite)
+        self.append(Problem(source, message.translate(_ONE_LINE)))
 
     def sorted(self) -> list[Problem]:
         return sorted(self)

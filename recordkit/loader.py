@@ -115,6 +115,8 @@ class _Builder:
         self.properties: list[m.Property] = []
         self.events: list[m.Event] = []
         self.property_sources: dict[str, Source] = {}
+        self.strings: dict[str, str] = {}
+        self.days: dict[str, date] = {}
 
     # ---- files -------------------------------------------------------------------------
     def add_file(self, tree: Any, path: str) -> None:
@@ -152,11 +154,22 @@ class _Builder:
         tree = decode_tree(payload["tree"])
         if "property" in tree:
             self.add_file(tree, path)
-        action, result = m.Action, m.Result
+        action, result, shared = m.Action, m.Result, self._shared
         self.events.extend(
-            m.Event(date.fromisoformat(day), device, action(act), Source(path, line),
-                    result(res) if res else None, by, note, time.fromisoformat(clock) if clock else None, evidence)
+            m.Event(self._day(day), shared(device), action(act), Source(path, line),
+                    result(res) if res else None, shared(by), shared(note),
+                    time.fromisoformat(clock) if clock else None, evidence)
             for day, clock, device, act, res, by, note, line, evidence in payload["events"])
+
+    def _shared(self, text: str) -> str:
+        """One copy of each repeated string (device ids, 'tenant'): millions of events share them."""
+        return self.strings.setdefault(text, text)
+
+    def _day(self, iso: str) -> date:
+        day = self.days.get(iso)
+        if day is None:
+            day = self.days[iso] = date.fromisoformat(iso)
+        return day
 
     def add_csv(self, data: bytes, path: str) -> None:
         """Events from a CSV log: one per row, with the same checks as YAML events."""
@@ -181,8 +194,8 @@ class _Builder:
             if not cells["device"]:
                 self.problems.add(source, "event: device is empty")
                 continue
-            self.events.append(m.Event(when, cells["device"], action, source, result,
-                                       cells.get("by", ""), cells.get("note", "")))
+            self.events.append(m.Event(when, self._shared(cells["device"]), action, source, result,
+                                       self._shared(cells.get("by", "")), self._shared(cells.get("note", ""))))
 
     # ---- properties, units, rooms, devices ----------------------------------------------
     def _property(self, tree: Any, path: str, line: int) -> m.Property | None:
@@ -315,8 +328,9 @@ class _Builder:
         device = f.text("device", required=True)
         action = f.choice("action", m.Action, required=True)
         result = f.choice("result", m.Result)
-        event = m.Event(when or date.min, device, action or m.Action.NOTE, f.source(), result,
-                        by=f.text("by"), note=f.text("note"), time=clock, evidence=f.text("evidence"))
+        event = m.Event(when or date.min, self._shared(device), action or m.Action.NOTE, f.source(), result,
+                        by=self._shared(f.text("by")), note=self._shared(f.text("note")), time=clock,
+                        evidence=f.text("evidence"))
         if event.evidence and not EVIDENCE.match(event.evidence):
             f.error("evidence", "'evidence' is 'sha256:' and 64 hex digits (written by `recordkit hear --log`)")
         f.finish()

@@ -125,3 +125,9 @@ def test_symlink_leaving_the_folder_is_refused(records, tmp_path):
     (folder / "linked.yaml").symlink_to(outside)
     messages = [str(p) for p in load_records(folder, AS_OF).problems]
     assert any("linked.yaml" in m and "outside the records folder" in m for m in messages), messages
+
+
+def test_a_problem_quoting_record_text_stays_on_one_line(records):
+    # found by the fuzz suite: a room id holding a newline made a two-line message
+    path, line, message = one_problem(records, with_device(room='"a\\nb"'))
+    assert message == "device 's1': room 'a\\nb' is not a room of this unit" and "\n" not in message
