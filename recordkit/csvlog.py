@@ -8,9 +8,11 @@ from __future__ import annotations
 import csv
 import re
 from datetime import date
-from typing import Iterator
+from typing import Iterator, NamedTuple
 
 from dateutil import parser as date_parser
+
+from . import model as m
 
 CSV_COLUMNS = ("date", "device", "action", "result", "by", "note")
 REQUIRED_COLUMNS = ("date", "device", "action")
@@ -27,6 +29,39 @@ def parse_sheet_date(text: str, dayfirst: bool = False) -> date:
     if (parsed.hour, parsed.minute, parsed.second) != (0, 0, 0):
         raise ValueError("has a time of day; give the date only")
     return parsed.date()
+
+
+class CsvRow(NamedTuple):
+    date: date
+    device: str
+    action: m.Action
+    result: m.Result | None
+    by: str
+    note: str
+
+
+def read_row(cells: dict[str, str], dayfirst: bool = False) -> tuple[CsvRow | None, list[str]]:
+    """One row's event, or what is wrong with it (every problem, not just the first)."""
+    messages = []
+    when = action = result = None
+    try:
+        when = parse_sheet_date(cells["date"], dayfirst)
+    except (ValueError, OverflowError) as exc:
+        messages.append(f"date {cells['date']!r}: {exc}")
+    try:
+        action = m.Action(cells["action"].lower())
+    except ValueError:
+        messages.append(f"action {cells['action']!r}; expected one of: {', '.join(a.value for a in m.Action)}")
+    if cells.get("result"):
+        try:
+            result = m.Result(cells["result"].lower())
+        except ValueError:
+            messages.append(f"result {cells['result']!r}; expected pass or fail")
+    if not cells["device"]:
+        messages.append("device is empty")
+    if messages:
+        return None, messages
+    return CsvRow(when, cells["device"], action, result, cells.get("by", ""), cells.get("note", "")), []
 
 
 def header_problem(header: list[str]) -> str | None:

@@ -93,7 +93,8 @@ def read_csv(path: Path, loaded: Loaded, today: date, dayfirst: bool = False) ->
     existing = {(e.date, e.device, e.action, e.result, e.by, e.note) for e in loaded.portfolio.events}
     for row_number, cells in body:
         source = Source(shown, row_number)
-        event, messages = _row_event(cells, dayfirst)
+        row, messages = csvlog.read_row(cells, dayfirst)
+        event = NewEvent(*row) if row else None
         if event:
             key = (event.date, event.device, event.action, event.result, event.by, event.note)
             if key in existing:
@@ -107,29 +108,6 @@ def read_csv(path: Path, loaded: Loaded, today: date, dayfirst: bool = False) ->
         else:
             result.events.append((event, source))
     return result
-
-
-def _row_event(cells: dict[str, str], dayfirst: bool) -> tuple[NewEvent | None, list[str]]:
-    messages = []
-    when = action = result = None
-    try:
-        when = csvlog.parse_sheet_date(cells["date"], dayfirst)
-    except (ValueError, OverflowError) as exc:
-        messages.append(f"date {cells['date']!r}: {exc}")
-    try:
-        action = m.Action(cells["action"].lower())
-    except ValueError:
-        messages.append(f"action {cells['action']!r}; expected one of: {', '.join(a.value for a in m.Action)}")
-    if cells.get("result"):
-        try:
-            result = m.Result(cells["result"].lower())
-        except ValueError:
-            messages.append(f"result {cells['result']!r}; expected pass or fail")
-    if not cells["device"]:
-        messages.append("device is empty")
-    if messages:
-        return None, messages
-    return NewEvent(when, cells["device"], action, result, cells.get("by", ""), cells.get("note", "")), []
 
 
 def events_csv_rows(portfolio: m.Portfolio) -> list[list[str]]:

@@ -184,18 +184,12 @@ class _Builder:
             return
         for line, cells in body:
             source = Source(path, line)
-            try:
-                when = csvlog.parse_sheet_date(cells["date"])
-                action = m.Action(cells["action"].lower())
-                result = m.Result(cells["result"].lower()) if cells.get("result") else None
-            except (ValueError, OverflowError) as exc:
-                self.problems.add(source, f"event: cannot read this row ({exc})")
+            row, messages = csvlog.read_row(cells)
+            if messages:
+                self.problems.add(source, f"event: cannot read this row ({'; '.join(messages)})")
                 continue
-            if not cells["device"]:
-                self.problems.add(source, "event: device is empty")
-                continue
-            self.events.append(m.Event(when, self._shared(cells["device"]), action, source, result,
-                                       self._shared(cells.get("by", "")), self._shared(cells.get("note", ""))))
+            self.events.append(m.Event(row.date, self._shared(row.device), row.action, source, row.result,
+                                       self._shared(row.by), self._shared(row.note)))
 
     # ---- properties, units, rooms, devices ----------------------------------------------
     def _property(self, tree: Any, path: str, line: int) -> m.Property | None:

@@ -201,8 +201,13 @@ class Policy:
         return value.amount
 
     def with_override(self, rule: Rule) -> "Policy":
-        rules = tuple(rule if r.name == rule.name else r for r in self._rules.values())
-        return Policy(rules, self.coverage, self.costs, self.currency)
+        return self.changed(rules=tuple(rule if r.name == rule.name else r for r in self._rules.values()))
+
+    def changed(self, **changes) -> "Policy":
+        """A copy with some of rules, coverage, costs and currency replaced."""
+        values = {"rules": tuple(self._rules.values()), "coverage": self.coverage, "costs": self.costs,
+                  "currency": self.currency}
+        return Policy(**{**values, **changes})
 
 
 POLICY_KEYS = ("policy", "coverage", "replacement_costs")
@@ -272,7 +277,7 @@ def _apply_coverage(tree, path: str, problems: Problems, policy: Policy) -> Poli
         problems.add(Source(path, tree.line_of("coverage")),
                      f"coverage: {chosen!r}; choose one of: {', '.join(COVERAGE_SETS)}")
         return policy
-    return Policy(tuple(policy._rules.values()), chosen, policy.costs, policy.currency)
+    return policy.changed(coverage=chosen)
 
 
 def _apply_costs(tree, path: str, problems: Problems, policy: Policy) -> Policy:
@@ -292,4 +297,4 @@ def _apply_costs(tree, path: str, problems: Problems, policy: Policy) -> Policy:
             problems.add(line, f"replacement_costs: {key} must be a number, got {value!r}")
         else:
             amounts[key] = float(value)
-    return Policy(tuple(policy._rules.values()), policy.coverage, amounts, currency)
+    return policy.changed(costs=amounts, currency=currency)
