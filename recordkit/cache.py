@@ -13,14 +13,19 @@ import hashlib
 import json
 import os
 import time
+from datetime import date
+from datetime import time as time_of_day
+from itertools import repeat
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 from . import __version__
+from . import model as m
 from .yamltree import YList, YMap
 
 CACHE_DIR = ".cache"
-FORMAT = 3
+FORMAT = 4
+CLEAN_FILE = "clean.json"
 RACY_SECONDS = 2.0
 
 
@@ -47,6 +52,54 @@ def decode_tree(value: Any) -> Any:
         result.line, result.item_lines = value["l"], [line for _, line in value["s"]]
         return result
     return value
+
+
+def encode_events(events: list[m.Event]) -> dict:
+    """A file's events as columns of small numbers into tables of its distinct values: compact, and
+    quick to turn back into events (see `decode_events`)."""
+    strings: dict[str, int] = {}
+    days: dict[date, int] = {}
+    kinds: dict[tuple, int] = {}
+    columns: dict[str, list] = {"day": [], "device": [], "kind": [], "by": [], "note": [], "line": []}
+    times, evidence = [], []
+    for row, e in enumerate(events):
+        columns["day"].append(days.setdefault(e.date, len(days)))
+        columns["kind"].append(kinds.setdefault((e.action.value, e.result.value if e.result else None), len(kinds)))
+        for name, text in (("device", e.device), ("by", e.by), ("note", e.note)):
+            columns[name].append(strings.setdefault(text, len(strings)))
+        columns["line"].append(e.line)
+        if e.time:
+            times.append([row, e.time.isoformat()])
+        if e.evidence:
+            evidence.append([row, e.evidence])
+    return {"count": len(events), "strings": list(strings), "days": [d.isoformat() for d in days],
+            "kinds": [list(k) for k in kinds], **columns, "times": times, "evidence": evidence}
+
+
+def decode_events(data: dict, path: str, share: Callable[[str], str], day: Callable[[str], date]) -> list[m.Event]:
+    """Events from `encode_events` columns. Each column becomes values by table lookups done in C, and the
+    events are built as tuples in C: a warm load is then about as quick as reading a CSV file.
+    A damaged entry raises (ValueError, KeyError, IndexError, TypeError); the caller parses the file again."""
+    count = data["count"]
+    strings = [share(s) for s in data["strings"]]
+    days = [day(d) for d in data["days"]]
+    kinds = [(m.Action(a), m.Result(r) if r is not None else None) for a, r in data["kinds"]]
+    actions, results = [k[0] for k in kinds], [k[1] for k in kinds]
+    columns = [data[name] for name in ("day", "device", "kind", "by", "note", "line")]
+    if any(len(column) != count for column in columns):
+        raise ValueError("columns of different lengths")
+    times: list = [None] * count
+    for row, text in data["times"]:
+        times[row] = time_of_day.fromisoformat(text)
+    evidence: list = [""] * count
+    for row, text in data["evidence"]:
+        evidence[row] = str(text)
+    day_col, device_col, kind_col, by_col, note_col, line_col = columns
+    text_at = strings.__getitem__
+    rows = zip(map(days.__getitem__, day_col), map(text_at, device_col), map(actions.__getitem__, kind_col),
+               repeat(path, count), line_col, map(results.__getitem__, kind_col), map(text_at, by_col),
+               map(text_at, note_col), times, evidence)
+    return list(map(tuple.__new__, repeat(m.Event), rows))
 
 
 class ParseCache:
@@ -86,6 +139,27 @@ class ParseCache:
             return None
         return entry
 
+    # ---- the last clean load: the files it read (by content hash) and its newest event date ----------
+    @staticmethod
+    def fileset_key(digests: list[tuple[str, str]]) -> str:
+        """One hash for a whole set of record files, from each file's path and content hash."""
+        joined = "\n".join(f"{path}\0{digest}" for path, digest in sorted(digests))
+        return hashlib.blake2b(f"{FORMAT}\0{__version__}\n{joined}".encode(), digest_size=16).hexdigest()
+
+    def loaded_clean(self, key: str, as_of: date) -> bool:
+        """True when exactly these files (same content) loaded without a problem before, and none of
+        their events is after `as_of`: the checks across files would find nothing again."""
+        if not self.enabled:
+            return False
+        try:
+            memo = json.loads((self.folder / CLEAN_FILE).read_text(encoding="utf-8"))
+            return memo["key"] == key and date.fromisoformat(memo["newest_event"]) <= as_of
+        except (OSError, ValueError, KeyError, TypeError):
+            return False
+
+    def mark_clean(self, key: str, newest_event: date) -> None:
+        self._write(self.folder / CLEAN_FILE, {"key": key, "newest_event": newest_event.isoformat()})
+
     def put(self, shown: str, stat: os.stat_result, digest: str, payload: Any) -> None:
         if not self.enabled:
             return
@@ -94,14 +168,18 @@ class ParseCache:
         trusted = time.time() - stat.st_mtime > RACY_SECONDS
         entry = {"format": FORMAT, "version": __version__, "path": shown, "size": stat.st_size,
                  "mtime_ns": stat.st_mtime_ns, "stat_trusted": trusted, "digest": digest, "payload": payload}
+        self._write(self._entry_path(shown), entry)
+
+    def _write(self, target: Path, data: dict) -> None:
+        if not self.enabled:
+            return
         try:
             self.folder.mkdir(exist_ok=True)
             ignore = self.folder / ".gitignore"
             if not ignore.exists():
                 ignore.write_text("# recordkit's parse cache: safe to delete, never commit\n*\n")
-            target = self._entry_path(shown)
             temp = target.with_suffix(f".{os.getpid()}.tmp")
-            temp.write_text(json.dumps(entry, separators=(",", ":")), encoding="utf-8")
+            temp.write_text(json.dumps(data, separators=(",", ":")), encoding="utf-8")
             os.replace(temp, target)
         except OSError:
             pass  # a read-only records folder just means no cache

@@ -24,7 +24,7 @@ class IntakeError(Exception):
 
 
 def as_model_event(event: NewEvent, source: Source) -> m.Event:
-    return m.Event(event.date, event.device, event.action, source, event.result, event.by, event.note,
+    return m.Event(event.date, event.device, event.action, source.path, source.line, event.result, event.by, event.note,
                    event.when, event.evidence)
 
 

@@ -10,6 +10,7 @@ from datetime import date
 from datetime import time as time_of_day
 from enum import StrEnum
 from functools import cached_property
+from typing import NamedTuple
 
 from .errors import Source
 
@@ -175,17 +176,24 @@ class Property:
     units: tuple[Unit, ...] = ()
 
 
-@dataclass(frozen=True, slots=True)  # slots: a long history holds millions of events
-class Event:
+class Event(NamedTuple):
+    """One thing done to a device. A tuple, not a dataclass: a long history holds millions of events,
+    and a tuple is built in C (the warm load makes them from cached columns without a Python call each)."""
+
     date: date
     device: str          # property/unit/device
     action: Action
-    source: Source
+    path: str            # the record file it was read from ...
+    line: int            # ... and its line; `source` joins them only when a message needs it
     result: Result | None = None
     by: str = ""
     note: str = ""
     time: time_of_day | None = None   # time of day, when recorded (needed to match a node's report to a test)
     evidence: str = ""         # "sha256:<hex>" of a recording kept under records/evidence/
+
+    @property
+    def source(self) -> Source:
+        return Source(self.path, self.line)
 
 
 @dataclass(frozen=True)
