@@ -3,9 +3,11 @@ import csv
 import io
 import json
 import shutil
-from datetime import date
+from datetime import date, timedelta
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from recordkit.errors import Problems
 from recordkit.loader import load_records
@@ -303,3 +305,29 @@ def test_hostile_text_stays_inert_in_the_calendar(records, tmp_path):
     assert not any(str(e["SUMMARY"]) == "injected" for e in events)
     fix = next(e for e in events if str(e["X-RECORDKIT-TASK"]) == "fix")
     assert "BEGIN:VEVENT" in str(fix["DESCRIPTION"])  # kept as the text it is
+
+
+@settings(max_examples=200, deadline=None)
+@given(text=st.text(st.characters(blacklist_categories=("Cs",)), max_size=300))
+def test_calendar_text_survives_escaping_and_folding(text):
+    """Any text (commas, semicolons, backslashes, line breaks, wide characters) read back by icalendar is
+    the text written, and every physical line is at most 75 octets (RFC 5545 §3.1, §3.3.11)."""
+    from icalendar import Event
+
+    from recordkit.exports import _fold, _text
+
+    written = _fold("DESCRIPTION:" + _text(text))
+    assert all(len(line.encode("utf-8")) <= 75 for line in written.split("\r\n"))
+    read = Event.from_ical(f"BEGIN:VEVENT\r\n{written}\r\nEND:VEVENT\r\n")
+    expected = text.replace("\r\n", "\n").replace("\r", "\n")
+    expected = "".join(c for c in expected if c in "\t\n" or (ord(c) >= 32 and ord(c) != 127))
+    assert str(read["DESCRIPTION"]) == expected
+
+
+def test_reminder_durations_read_back_as_written():
+    from icalendar.prop import vDDDTypes
+
+    from recordkit.exports import _duration
+
+    for delta in (timedelta(days=-30, hours=9), timedelta(days=-1, hours=9), timedelta(hours=9), timedelta(0)):
+        assert vDDDTypes.from_ical(_duration(delta)) == delta
