@@ -482,7 +482,8 @@ def calendar_command(records_dir, as_of, out) -> None:
     findings = evaluate(loaded.portfolio, loaded.policy, day)
     with open(out, "wb") as handle:
         handle.write(calendar_ics(loaded.portfolio, findings, day))
-    click.echo(f"Wrote {len(findings)} task(s) to {out}")
+    dated = sum(1 for f in findings if f.device in loaded.portfolio.devices)  # coverage gaps have no date
+    click.echo(f"Wrote {dated} task(s) to {out}")
 
 
 @main.command("schema")
