@@ -38,8 +38,8 @@ ENV_AS_OF = "RECORDKIT_AS_OF"
 # Markdown features the generated pages rely on.
 NEEDED_EXTENSIONS = ("tables", "attr_list", "md_in_html", "admonition", "toc")
 CSS = "assets/recordkit.css"
-SHIM = "assets/iframe-worker-shim.js"
-INSERTS = ".inserts.json"  # vendored (MIT) so search works from disk without a CDN
+SHIM = "assets/iframe-worker-shim.js"  # vendored (MIT) so search works from disk without a CDN
+INSERTS = ".inserts.json"  # beside a spooled page: the HTML its placeholders stand for
 
 
 class RecordkitConfig(base.Config):
@@ -81,7 +81,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                                                local=True))
         loaded.policy = policy
         findings = evaluate(loaded.portfolio, policy, as_of)
-        self._spool_pages(site_pages(loaded, findings, as_of))
+        self._spool_pages(site_pages(loaded, findings, as_of, config.use_directory_urls))
         log.info("recordkit: %d devices, %d tasks as of %s", len(loaded.portfolio.devices), len(findings), as_of)
 
         for name in NEEDED_EXTENSIONS:

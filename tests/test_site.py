@@ -133,3 +133,25 @@ def test_plain_mkdocs_build_uses_the_plugin(tmp_path):
 def demo_root():
     from .conftest import REPO
     return REPO
+
+
+def test_links_hold_with_directory_urls(tmp_path):
+    # The HTML parts of unit and property pages carry links MkDocs does not rewrite; with
+    # `use_directory_urls: true` (MkDocs' default) each page is a folder, and the links must follow.
+    import os, subprocess, sys
+    from .conftest import REPO
+    config = (REPO / "mkdocs.yml").read_text()
+    config = config.replace("use_directory_urls: false", "use_directory_urls: true")
+    config = config.replace("  - offline", "")  # Material's offline plugin turns directory URLs off
+    config = config.replace("docs_dir: site_templates/pages", f"docs_dir: {REPO / 'site_templates/pages'}")
+    config = config.replace("records: records", f"records: {REPO / 'records'}")
+    (tmp_path / "mkdocs.yml").write_text(config)
+    env = {**os.environ, "RECORDKIT_AS_OF": AS_OF, "NO_MKDOCS_2_WARNING": "1"}
+    env.pop("RECORDKIT_RECORDS", None)
+    result = subprocess.run([sys.executable, "-m", "mkdocs", "build", "-q", "-d", str(tmp_path / "s")],
+                            capture_output=True, text=True, env=env, cwd=tmp_path)
+    assert result.returncode == 0, result.stderr
+    assert (tmp_path / "s/properties/tansy-house/flat-1/index.html").is_file()
+    page = (tmp_path / "s/properties/tansy-house/index.html").read_text()
+    assert 'href="flat-1/#device-' in page   # a link from the HTML device table
+    assert broken_links(tmp_path / "s") == []

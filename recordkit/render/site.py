@@ -68,6 +68,26 @@ def unit_uri(prop: m.Property, unit: m.Unit) -> str:
     return f"properties/{prop.id}/{unit.id}.md"
 
 
+def page_url(uri: str, directory_urls: bool) -> str:
+    """Where MkDocs puts the page built from `uri`, as a URL path (for links in HTML, which MkDocs
+    does not rewrite as it does Markdown links)."""
+    if not uri.endswith(".md"):
+        return uri
+    stem = uri[:-3]
+    if not directory_urls:
+        return stem + ".html"
+    if stem == "index" or stem.endswith("/index"):
+        return stem[:-len("index")]
+    return stem + "/"
+
+
+def relative_url(target: str, here: str) -> str:
+    """`target` as a link from the page at `here` (both URL paths as page_url gives them)."""
+    base = here if here.endswith("/") else posixpath.dirname(here)
+    url = posixpath.relpath(target or ".", base or ".")
+    return url + "/" if target.endswith("/") or not target else url
+
+
 def device_anchor(device: m.Device) -> str:
     return f"device-{device.id}"
 
@@ -102,8 +122,9 @@ class DeviceView:
 
 
 class SiteBuilder:
-    def __init__(self, loaded: Loaded, findings: list[Finding], as_of: date):
+    def __init__(self, loaded: Loaded, findings: list[Finding], as_of: date, directory_urls: bool = False):
         self.loaded = loaded
+        self.directory_urls = directory_urls
         self.portfolio = loaded.portfolio
         self.as_of = as_of
         self.findings = findings
@@ -120,7 +141,8 @@ class SiteBuilder:
         # device sections are HTML (put in after Markdown): a second environment that escapes for HTML
         self.html_env = jinja2.Environment(loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=True,
                                            trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined)
-        self.html_env.globals.update(badge=badge, kind_label=kind_label, task_label=TASK_LABELS.get, as_of=as_of)
+        self.html_env.globals.update(badge=badge, kind_label=kind_label, task_label=TASK_LABELS.get, as_of=as_of,
+                                    device_anchor=device_anchor)
         self.env.globals.update(badge=badge, anchor=anchor, front_title=front_title, task_label=TASK_LABELS.get, kind_label=kind_label,
                                 when=lambda f: when(f, as_of), as_of=as_of, short_caution=SHORT,
                                 state_labels=STATE_LABELS)
@@ -135,7 +157,7 @@ class SiteBuilder:
             return Markup(f"\n\n{placeholder}\n\n")
 
         def device_section(view: DeviceView) -> Markup:
-            return later(self.html_env.get_template("_device.html.j2").render(
+            return Markup(self.html_env.get_template("_device.html.j2").render(
                 v=view, unit=context["unit"], views=self.views, device_anchor=device_anchor,
                 evidence_html=lambda events: Markup(self._evidence_html(events)),
                 history_html=history_html, when=lambda f: when(f, self.as_of)))
@@ -143,6 +165,22 @@ class SiteBuilder:
         def link(target: str, anchor: str | None = None) -> Markup:
             url = posixpath.relpath(target, posixpath.dirname(here) or ".")
             return Markup(url + (f"#{anchor}" if anchor else ""))
+
+        def href(target: str, anchor: str | None = None) -> Markup:
+            """A link for HTML parts (Markdown links are rewritten by MkDocs; these are not)."""
+            url = relative_url(page_url(target, self.directory_urls), page_url(here, self.directory_urls))
+            return Markup(html.escape(url + (f"#{anchor}" if anchor else "")))
+
+        def device_href(view: DeviceView) -> Markup:
+            loc = view.located
+            return href(unit_uri(loc.property, loc.unit), device_anchor(loc.device))
+
+        def html_what(f: Finding) -> Markup:
+            if f.device in self.views:
+                view = self.views[f.device]
+                return Markup('{} <a href="{}">{}</a>').format(kind_label(f.kind), device_href(view), view.device.id)
+            prop, unit = self.units[f.unit]
+            return Markup('<a href="{}">Coverage of {}</a>').format(href(unit_uri(prop, unit), "coverage"), unit.name)
 
         def device_link(view: DeviceView) -> Markup:
             loc = view.located
@@ -174,7 +212,8 @@ class SiteBuilder:
             finding_what=finding_what, finding_where=finding_where, device_section=device_section,
             unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor,
             checklist_uri=checklist_uri, new_unit_sheet=NEW_UNIT_SHEET, calendar_file=CALENDAR,
-            schema_file=SCHEMA, **context)
+            schema_file=SCHEMA, later=later, device_href=device_href, html_what=html_what, parts=self.html_env.get_template("_parts.html.j2").module,
+            **context)
 
     # ---- pages -------------------------------------------------------------------------
     def pages(self) -> Iterator[Page]:
@@ -195,10 +234,10 @@ class SiteBuilder:
             overdue_by_property.setdefault(finding.unit.split("/", 1)[0], []).append(finding)
         for prop in self.portfolio.properties:
             overdue = overdue_by_property.get(prop.id, [])
-            yield Page(property_uri(prop), self._render("property.md.j2", property_uri(prop), prop=prop,
-                                                         units=[self._unit_summary(prop, u) for u in prop.units],
-                                                         devices=self._active(prop.units), overdue=overdue),
-                       in_nav=not many)
+            content = self._render("property.md.j2", property_uri(prop), prop=prop, overdue=overdue,
+                                   units=[self._unit_summary(prop, u) for u in prop.units],
+                                   devices=self._active(prop.units))
+            yield Page(property_uri(prop), content, in_nav=not many, inserts=self.inserts)
             sheets = [unit_sheet(self.portfolio, self.by_device, prop, unit, self.as_of) for unit in prop.units]
             yield Page(checklist_uri(prop), inspection_html(sheets, self.as_of), static=True)
             for unit, sheet in zip(prop.units, sheets):
@@ -282,7 +321,7 @@ class SiteBuilder:
         grid = monthly_grid_svg([(v.device.id, month_cells(self.portfolio, v.device, self.as_of)) for v in active])
         gaps = [f for f in self.by_device.get(unit.uid, []) if f.task == "coverage"]
         content = self._render("unit.md.j2", unit_uri(prop, unit), prop=prop, unit=unit, rooms=rooms,
-                               grid=Markup(grid), gaps=gaps, rule_set=self.loaded.policy.coverage,
+                               grid=Markup(f'<div class="rk-figure">{grid}</div>'), gaps=gaps, rule_set=self.loaded.policy.coverage,
                                active=[v for v in views if not self._retired(v)],
                                retired=[v for v in views if self._retired(v)])
         return Page(unit_uri(prop, unit), content, in_nav=False, inserts=self.inserts)
@@ -295,8 +334,8 @@ class SiteBuilder:
         return Page("about.md", self._render("about.md.j2", "about.md", cautions=CAUTIONS))
 
 
-def site_pages(loaded: Loaded, findings: list[Finding], as_of: date) -> Iterator[Page]:
-    return SiteBuilder(loaded, findings, as_of).pages()
+def site_pages(loaded: Loaded, findings: list[Finding], as_of: date, directory_urls: bool = False) -> Iterator[Page]:
+    return SiteBuilder(loaded, findings, as_of, directory_urls).pages()
 
 
 def badge(state: State | str | None) -> Markup:
