@@ -123,8 +123,24 @@ def _duration(delta: timedelta) -> str:
 def _fold(line: str, limit: int = 75) -> str:
     """RFC 5545 §3.1: lines of at most 75 octets; longer ones continue after CRLF and a space,
     never splitting a UTF-8 character or a backslash escape (some readers mishandle a split one)."""
-    if len(line) <= limit // 4 or len(line.encode("utf-8")) <= limit:
-        return line
+    if not line.isascii():
+        return line if len(line.encode("utf-8")) <= limit else _fold_chars(line, limit)
+    parts, start, room = [], 0, limit
+    while len(line) - start > room:  # ASCII: one octet a character, so cut by slicing
+        end = start + room
+        run = end - 1
+        while run >= 0 and line[run] == "\\":
+            run -= 1
+        if (end - 1 - run) % 2:  # line[end - 1] opens an escape whose second half is line[end]
+            end -= 1
+        parts.append(line[start:end])
+        start, room = end, limit - 1  # a continuation line starts with a space
+    parts.append(line[start:])
+    return "\r\n ".join(parts)
+
+
+def _fold_chars(line: str, limit: int = 75) -> str:
+    """_fold for text with multi-byte characters: measured a character (or escape) at a time."""
     parts, current, size = [], [], 0
     for char in _ESCAPE_OR_CHAR.findall(line):
         width = len(char.encode("utf-8"))

@@ -1,6 +1,7 @@
 """Charts: the numbers behind them, and SVG that reads without colour or script."""
 import xml.etree.ElementTree as ET
 from datetime import date
+from hypothesis import given, strategies as st
 
 from recordkit.checks import evaluate
 from recordkit.render.charts import (forecast_svg, month_cells, replacement_forecast, monthly_grid_svg,
@@ -62,3 +63,11 @@ def test_month_cells_and_grid():
     root = ET.fromstring(monthly_grid_svg([("bed-2-smoke", list(cells.items()))]))
     symbols = [t.text for t in root.iter(f"{SVG}text") if t.get("class") == "rk-symbol"]
     assert symbols.count("✗") == 1 and "✓" in symbols
+
+
+@given(st.dates(min_value=date(1900, 1, 1), max_value=date(2200, 12, 1)), st.integers(-240, 240))
+def test_month_after_agrees_with_dateutil(day, months):
+    from dateutil.relativedelta import relativedelta
+    from recordkit.render.charts import _month_after
+    first = day.replace(day=1)
+    assert _month_after(first, months) == first + relativedelta(months=months)  # python-dateutil as reference

@@ -308,7 +308,8 @@ def test_hostile_text_stays_inert_in_the_calendar(records, tmp_path):
 
 
 @settings(max_examples=200, deadline=None)
-@given(text=st.text(st.characters(blacklist_categories=("Cs",)), max_size=300))
+@given(text=st.text(st.characters(blacklist_categories=("Cs",)), max_size=300)
+       | st.text("ab \\;,\n", max_size=300))  # mostly ASCII with escapes: the sliced path
 def test_calendar_text_survives_escaping_and_folding(text):
     """Any text (commas, semicolons, backslashes, line breaks, wide characters) read back by icalendar is
     the text written, and every physical line is at most 75 octets (RFC 5545 §3.1, §3.3.11)."""
@@ -318,6 +319,8 @@ def test_calendar_text_survives_escaping_and_folding(text):
 
     written = _fold("DESCRIPTION:" + _text(text))
     assert all(len(line.encode("utf-8")) <= 75 for line in written.split("\r\n"))
+    for line in written.split("\r\n")[:-1]:  # no line ends inside a backslash escape
+        assert (len(line) - len(line.rstrip("\\"))) % 2 == 0, line
     read = Event.from_ical(f"BEGIN:VEVENT\r\n{written}\r\nEND:VEVENT\r\n")
     expected = text.replace("\r\n", "\n").replace("\r", "\n")
     expected = "".join(c for c in expected if c in "\t\n" or (ord(c) >= 32 and ord(c) != 127))
@@ -331,3 +334,19 @@ def test_reminder_durations_read_back_as_written():
 
     for delta in (timedelta(days=-30, hours=9), timedelta(days=-1, hours=9), timedelta(hours=9), timedelta(0)):
         assert vDDDTypes.from_ical(_duration(delta)) == delta
+
+
+def test_folding_never_cuts_an_escape_at_any_offset():
+    """RFC 5545 §3.1 folding, tried with the escape at every position around the 75-octet cut."""
+    from icalendar import Event
+
+    from recordkit.exports import _fold, _text
+
+    for pad in range(0, 160):
+        for text in ("a" * pad + "x;y,z\\w" * 12, "é" * (pad // 2) + "a" * (pad % 2) + ";" * 40):
+            written = _fold("DESCRIPTION:" + _text(text))
+            lines = written.split("\r\n")
+            assert all(len(line.encode("utf-8")) <= 75 for line in lines)
+            for line in lines[:-1]:
+                assert (len(line) - len(line.rstrip("\\"))) % 2 == 0, (pad, line)
+            assert str(Event.from_ical(f"BEGIN:VEVENT\r\n{written}\r\nEND:VEVENT\r\n")["DESCRIPTION"]) == text

@@ -83,19 +83,27 @@ def forecast_svg(quarters: list[Quarter]) -> str:
     return "".join(parts)
 
 
+def _month_after(first_of_month: date, months: int = 1) -> date:
+    """The first day of the month `months` later (plain arithmetic: day 1 exists in every month)."""
+    year, month = divmod(first_of_month.month - 1 + months, 12)
+    return date(first_of_month.year + year, month + 1, 1)
+
+
 def month_cells(portfolio: m.Portfolio, device: m.Device, as_of: date) -> list[tuple[date, str]]:
     """The last 12 months for one device: pass, fail, missed (in service, no test) or none."""
     last = date(as_of.year, as_of.month, 1)
-    months = [last - relativedelta(months=GRID_MONTHS - 1 - i) for i in range(GRID_MONTHS)]
+    months = [_month_after(last, i - GRID_MONTHS + 1) for i in range(GRID_MONTHS)]
     retired = portfolio.retired_on(device.uid)
     results: dict[date, set] = {}
-    for event in portfolio.events_for(device.uid):
+    for event in reversed(portfolio.events_for(device.uid)):  # oldest first: read back to the grid's start
+        if event.date < months[0]:
+            break
         if event.action is m.Action.TEST or event.action is m.Action.HEARD:
             month = date(event.date.year, event.date.month, 1)
             results.setdefault(month, set()).add("fail" if event.result is m.Result.FAIL else "pass")
     cells = []
     for month in months:
-        month_end = month + relativedelta(months=1)
+        month_end = _month_after(month)
         in_service = device.installed < month_end and (retired is None or retired > month) and month <= as_of
         if month in results:
             cells.append((month, "fail" if "fail" in results[month] else "pass"))

@@ -5,6 +5,7 @@ else (a pre-build step, another generator) could use them too.
 """
 from __future__ import annotations
 
+import functools
 import html
 import json
 import posixpath
@@ -347,12 +348,17 @@ def badge(state: State | str | None) -> Markup:
                   f'<span aria-hidden="true">{symbol}</span> {word}</span>')
 
 
+@functools.lru_cache(maxsize=8192)  # names and notes repeat across thousands of events
+def _cell(text: str | None) -> str:
+    return html.escape(" ".join(text.split())) if text else ""
+
+
 def history_html(events: tuple[m.Event, ...]) -> Markup:
     """A device's events, newest first, as one raw HTML block: Markdown leaves it alone, which keeps
     long histories cheap to build. Every value is escaped."""
     rows = "".join(
         f"<tr><td>{e.date}{' ' + e.time.strftime('%H:%M') if e.time else ''}</td><td>{e.action}</td>"
-        f"<td>{e.result or ''}</td><td>{md_text(e.by)}</td><td>{md_text(e.note)}</td></tr>"
+        f"<td>{e.result or ''}</td><td>{_cell(e.by)}</td><td>{_cell(e.note)}</td></tr>"
         for e in reversed(events))
     return Markup(f'<details class="rk-history"><summary>History: {len(events)} event(s), newest first</summary>'
                   f'<table><thead><tr><th>Date</th><th>Action</th><th>Result</th><th>By</th><th>Note</th></tr>'
