@@ -7,12 +7,8 @@ under `mkdocs serve`.
 """
 from __future__ import annotations
 
-import json
 import logging
 import os
-import shutil
-import tempfile
-from dataclasses import replace
 from datetime import date
 from pathlib import Path
 
@@ -26,7 +22,7 @@ from .cautions import SHORT
 from .checks import evaluate
 from .loader import load_records
 from .render.labels import ASSETS
-from .render.site import Page, site_pages
+from .render.site import Page, part_marker, site_pages
 from .rules import Interval, Rule
 
 log = logging.getLogger("mkdocs.plugins.recordkit")
@@ -39,7 +35,6 @@ ENV_AS_OF = "RECORDKIT_AS_OF"
 NEEDED_EXTENSIONS = ("tables", "attr_list", "md_in_html", "admonition", "toc")
 CSS = "assets/recordkit.css"
 SHIM = "assets/iframe-worker-shim.js"  # vendored (MIT) so search works from disk without a CDN
-INSERTS = ".inserts.json"  # beside a spooled page: the HTML its placeholders stand for
 
 
 class RecordkitConfig(base.Config):
@@ -48,10 +43,38 @@ class RecordkitConfig(base.Config):
     due_soon_days = config_options.Type(dict, default={})
 
 
+class MadeFile(File):
+    """A generated file whose text is made when MkDocs reads or writes it, never held or spooled:
+    a portfolio of thousands of units has tens of thousands of these."""
+
+    made: Page  # (MkDocs' own `page` attribute is the page it builds)
+
+    @classmethod
+    def of(cls, config: MkDocsConfig, page: Page, inclusion: InclusionLevel) -> "MadeFile":
+        made = cls.generated(config, page.src_uri, content="", inclusion=inclusion)
+        made.made = page
+        return made
+
+    @property
+    def content_string(self) -> str:
+        return self.made.make()
+
+    @property
+    def content_bytes(self) -> bytes:
+        return self.made.make().encode("utf-8")
+
+    def is_modified(self) -> bool:
+        return True
+
+    def copy_file(self, dirty: bool = False) -> None:
+        os.makedirs(os.path.dirname(self.abs_dest_path), exist_ok=True)
+        with open(self.abs_dest_path, "w", encoding="utf-8", newline="") as handle:
+            handle.write(self.made.make())
+
+
 class RecordkitPlugin(BasePlugin[RecordkitConfig]):
     def __init__(self) -> None:
-        self.pages: list[Page] = []
-        self.spool: Path | None = None
+        self.pages: dict[str, Page] = {}
         self.records_dir: Path | None = None
 
     def on_config(self, config: MkDocsConfig) -> MkDocsConfig:
@@ -81,7 +104,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                                                local=True))
         loaded.policy = policy
         findings = evaluate(loaded.portfolio, policy, as_of)
-        self._spool_pages(site_pages(loaded, findings, as_of, config.use_directory_urls))
+        self.pages = {page.src_uri: page for page in site_pages(loaded, findings, as_of, config.use_directory_urls)}
         log.info("recordkit: %d devices, %d tasks as of %s", len(loaded.portfolio.devices), len(findings), as_of)
 
         for name in NEEDED_EXTENSIONS:
@@ -97,28 +120,9 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             config.copyright = f"{config.copyright} · {SHORT}" if config.copyright else SHORT
         return config
 
-    def _spool_pages(self, pages) -> None:
-        """Write the generated pages to a temporary folder that MkDocs reads them from: a portfolio of
-        thousands of units then never holds every page in memory at once."""
-        self._clean_spool()
-        self.spool = Path(tempfile.mkdtemp(prefix="recordkit-site-"))
-        self.pages = []
-        for page in pages:
-            target = self.spool / page.src_uri
-            target.parent.mkdir(parents=True, exist_ok=True)
-            target.write_text(page.content, encoding="utf-8")
-            if page.inserts:
-                target.with_name(target.name + INSERTS).write_text(json.dumps(page.inserts), encoding="utf-8")
-            self.pages.append(replace(page, content="", inserts={}))  # what and where, not the text
-
-    def _clean_spool(self) -> None:
-        if self.spool:
-            shutil.rmtree(self.spool, ignore_errors=True)
-            self.spool = None
-
     def page_text(self, src_uri: str) -> str:
-        """A generated page's text as written for MkDocs (for checks and tests)."""
-        return (self.spool / src_uri).read_text(encoding="utf-8")
+        """A generated page's text as MkDocs reads it (for checks and tests)."""
+        return self.pages[src_uri].make()
 
     def _as_of(self) -> date:
         text = os.environ.get(ENV_AS_OF) or self.config.as_of
@@ -130,30 +134,29 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             raise PluginError(f"recordkit: as_of must be a date as YYYY-MM-DD, got {text!r}") from None
 
     def on_files(self, files: Files, /, *, config: MkDocsConfig) -> Files:
-        for page in self.pages:
+        for page in self.pages.values():
             if files.get_file_from_path(page.src_uri):
                 raise PluginError(f"recordkit: {page.src_uri} is generated from the records; "
                                   f"remove the hand-written file of that name from {config.docs_dir}")
             inclusion = InclusionLevel.UNDEFINED if page.in_nav and not page.static else InclusionLevel.NOT_IN_NAV
-            files.append(File.generated(config, page.src_uri, abs_src_path=str(self.spool / page.src_uri),
-                                        inclusion=inclusion))
+            files.append(MadeFile.of(config, page, inclusion))
         for asset in (CSS, SHIM):
             files.append(File.generated(config, asset, abs_src_path=str(ASSETS / Path(asset).name)))
         return files
 
     def on_post_page(self, output: str, /, *, page, config: MkDocsConfig) -> str:
-        """Put the long history tables in, after Markdown and the search index have seen the page."""
-        spooled = self.spool / (page.file.src_uri + INSERTS) if self.spool else None
-        if spooled and spooled.exists():
-            for placeholder, html in json.loads(spooled.read_text(encoding="utf-8")).items():
-                output = output.replace(f"<p>{placeholder}</p>", html, 1)
+        """Put the long tables and histories in, after Markdown and the search index have seen the page."""
+        made = self.pages.get(page.file.src_uri)
+        if made and made.parts:
+            for name, html in made.parts().items():
+                output = output.replace(part_marker(name), html, 1)
         return output
 
     def on_post_build(self, *, config: MkDocsConfig) -> None:
-        self._clean_spool()
+        self.pages = {}  # let the records go: `mkdocs serve` loads them afresh on the next build
 
     def on_build_error(self, *, error: Exception) -> None:
-        self._clean_spool()
+        self.pages = {}
 
     def on_serve(self, server, /, *, config: MkDocsConfig, builder):
         if self.records_dir:

@@ -58,16 +58,19 @@ def test_generated_unit_pages_stay_out_of_the_nav(configured):
     # Material renders the whole nav into every page: units in the nav would make builds quadratic.
     config, plugin = configured()
     plugin.on_config(config)
-    pages = [p for p in plugin.pages if not p.static]
+    pages = [p for p in plugin.pages.values() if not p.static]
     assert all(not p.in_nav for p in pages if p.src_uri.count("/") == 2)
     assert all(p.in_nav for p in pages if p.src_uri.count("/") < 2)
 
 
-def test_the_temporary_page_folder_is_removed_after_a_build(configured, tmp_path):
+def test_a_build_fills_every_part_and_lets_the_records_go(configured, tmp_path):
     from mkdocs.commands.build import build
 
     config, plugin = configured()
     config.site_dir = str(tmp_path / "site")
     build(config)
-    assert plugin.spool is None
-    assert (tmp_path / "site/properties/tansy-house/flat-1.html").is_file()
+    assert plugin.pages == {}   # pages are made on demand; nothing is kept (or spooled) after the build
+    for page in (tmp_path / "site").rglob("*.html"):
+        assert "rk-part-" not in page.read_text(), page   # every marker was replaced by its HTML
+    unit = (tmp_path / "site/properties/tansy-house/flat-1.html").read_text()
+    assert 'id="device-bed-1-smoke"' in unit and "<svg" in unit

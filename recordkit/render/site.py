@@ -11,7 +11,7 @@ import json
 import posixpath
 from collections import Counter
 from dataclasses import dataclass, field
-from typing import Iterator
+from typing import Callable, Iterator
 from datetime import date, timedelta
 from pathlib import Path
 
@@ -41,13 +41,21 @@ PROPERTIES_INDEX = "properties.md"
 
 @dataclass(frozen=True)
 class Page:
+    """A generated page: where it goes and how to make it. Made on demand, when MkDocs reads it, so a
+    large portfolio's pages are never all in memory (nor written twice)."""
     src_uri: str
-    content: str
+    make: Callable[[], str]
     in_nav: bool = True
-    static: bool = False   # a finished file (a printable sheet), copied as it is
-    # HTML to put in place of placeholder paragraphs after Markdown (and search) have run: long
-    # histories skip both, which keeps the build linear and fast at a landlord's scale.
-    inserts: dict[str, str] = field(default_factory=dict)
+    static: bool = False   # a finished file (a printable sheet), written as it is
+    # The HTML for the page's part("name") markers, put in after Markdown and search have run: long
+    # tables and histories skip both, which keeps the build linear and fast at a landlord's scale.
+    parts: Callable[[], dict[str, str]] | None = None
+
+
+def part_marker(name: str) -> str:
+    """What a part("name") leaves in the Markdown: a comment, which Markdown passes through as it is and
+    search ignores."""
+    return f"<!-- rk-part-{name} -->"
 
 
 def checklist_uri(prop: m.Property, unit: m.Unit | None = None, monthly: bool = False) -> str:
@@ -150,38 +158,9 @@ class SiteBuilder:
 
     # ---- helpers available to templates ------------------------------------------------
     def _render(self, template: str, here: str, **context) -> str:
-        self.inserts: dict[str, str] = {}
-
-        def later(html_text: str) -> Markup:
-            placeholder = f"rk-insert-{len(self.inserts):05d}"
-            self.inserts[placeholder] = html_text
-            return Markup(f"\n\n{placeholder}\n\n")
-
-        def device_section(view: DeviceView) -> Markup:
-            return Markup(self.html_env.get_template("_device.html.j2").render(
-                v=view, unit=context["unit"], views=self.views, device_anchor=device_anchor,
-                evidence_html=lambda events: Markup(self._evidence_html(events)),
-                history_html=history_html, when=lambda f: when(f, self.as_of)))
-
         def link(target: str, anchor: str | None = None) -> Markup:
             url = posixpath.relpath(target, posixpath.dirname(here) or ".")
             return Markup(url + (f"#{anchor}" if anchor else ""))
-
-        def href(target: str, anchor: str | None = None) -> Markup:
-            """A link for HTML parts (Markdown links are rewritten by MkDocs; these are not)."""
-            url = relative_url(page_url(target, self.directory_urls), page_url(here, self.directory_urls))
-            return Markup(html.escape(url + (f"#{anchor}" if anchor else "")))
-
-        def device_href(view: DeviceView) -> Markup:
-            loc = view.located
-            return href(unit_uri(loc.property, loc.unit), device_anchor(loc.device))
-
-        def html_what(f: Finding) -> Markup:
-            if f.device in self.views:
-                view = self.views[f.device]
-                return Markup('{} <a href="{}">{}</a>').format(kind_label(f.kind), device_href(view), view.device.id)
-            prop, unit = self.units[f.unit]
-            return Markup('<a href="{}">Coverage of {}</a>').format(href(unit_uri(prop, unit), "coverage"), unit.name)
 
         def device_link(view: DeviceView) -> Markup:
             loc = view.located
@@ -210,42 +189,90 @@ class SiteBuilder:
 
         return self.env.get_template(template).render(
             here=here, link=link, device_link=device_link, where=where, views=self.views,
-            finding_what=finding_what, finding_where=finding_where, device_section=device_section,
+            finding_what=finding_what, finding_where=finding_where, part=lambda name: Markup(f"\n\n{part_marker(name)}\n\n"),
             unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor,
             checklist_uri=checklist_uri, new_unit_sheet=NEW_UNIT_SHEET, calendar_file=CALENDAR,
-            schema_file=SCHEMA, later=later, device_href=device_href, html_what=html_what, parts=self.html_env.get_template("_parts.html.j2").module,
-            **context)
+            schema_file=SCHEMA, **context)
+
+    # ---- HTML parts (links in them are not rewritten by MkDocs, so they are made here as URLs) --------
+    @functools.cached_property
+    def _parts(self):
+        return self.html_env.get_template("_parts.html.j2").module
+
+    def _href(self, here: str, target: str, anchor: str | None = None) -> Markup:
+        url = relative_url(page_url(target, self.directory_urls), page_url(here, self.directory_urls))
+        return Markup(html.escape(url + (f"#{anchor}" if anchor else "")))
+
+    def _device_href(self, here: str, view: DeviceView) -> Markup:
+        loc = view.located
+        return self._href(here, unit_uri(loc.property, loc.unit), device_anchor(loc.device))
+
+    def _html_what(self, here: str, f: Finding) -> Markup:
+        if f.device in self.views:
+            view = self.views[f.device]
+            return Markup('{} <a href="{}">{}</a>').format(kind_label(f.kind), self._device_href(here, view),
+                                                          view.device.id)
+        prop, unit = self.units[f.unit]
+        return Markup('<a href="{}">Coverage of {}</a>').format(self._href(here, unit_uri(prop, unit), "coverage"),
+                                                               unit.name)
+
+    def _device_section(self, view: DeviceView) -> Markup:
+        return Markup(self.html_env.get_template("_device.html.j2").render(
+            v=view, unit=view.located.unit, views=self.views, device_anchor=device_anchor,
+            evidence_html=lambda events: Markup(self._evidence_html(events)),
+            history_html=history_html, when=lambda f: when(f, self.as_of)))
 
     # ---- pages -------------------------------------------------------------------------
     def pages(self) -> Iterator[Page]:
-        """Every page, one at a time, so a large portfolio's pages need not all be in memory at once."""
-        yield self.overview()
-        yield self.rules()
-        yield self.about()
-        yield Page(NEW_UNIT_SHEET, blank_unit_html(), static=True)
-        yield Page(CALENDAR, calendar_ics(self.portfolio, self.findings, self.as_of).decode(), static=True)
-        yield Page(SCHEMA, json.dumps(record_schema(), indent=2) + "\n", static=True)
+        """Every page, each made only when asked for."""
+        yield Page("index.md", self.overview)
+        yield Page("rules.md", self.rules)
+        yield Page("about.md", self.about)
+        yield Page(NEW_UNIT_SHEET, blank_unit_html, static=True)
+        yield Page(CALENDAR, lambda: calendar_ics(self.portfolio, self.findings, self.as_of).decode(), static=True)
+        yield Page(SCHEMA, lambda: json.dumps(record_schema(), indent=2) + "\n", static=True)
         many = len(self.portfolio.properties) > NAV_PROPERTIES
         if many:
-            yield Page(PROPERTIES_INDEX, self._render("properties.md.j2", PROPERTIES_INDEX,
-                                                      rows=self._property_rows()))
-        overdue_by_property: dict[str, list[Finding]] = {}
+            yield Page(PROPERTIES_INDEX, lambda: self._render("properties.md.j2", PROPERTIES_INDEX,
+                                                              rows=self._property_rows()))
+        for prop in self.portfolio.properties:
+            yield Page(property_uri(prop), functools.partial(self.property_page, prop),
+                       parts=functools.partial(self.property_parts, prop), in_nav=not many)
+            yield Page(checklist_uri(prop), functools.partial(self.inspection_sheets, prop), static=True)
+            for unit in prop.units:
+                yield Page(unit_uri(prop, unit), functools.partial(self.unit_page, prop, unit),
+                           parts=functools.partial(self.unit_parts, prop, unit), in_nav=False)
+                yield Page(checklist_uri(prop, unit), functools.partial(self.inspection_sheets, prop, unit),
+                           static=True)
+                yield Page(checklist_uri(prop, unit, monthly=True), functools.partial(self.monthly_card, prop, unit),
+                           static=True)
+
+    def inspection_sheets(self, prop: m.Property, unit: m.Unit | None = None) -> str:
+        units = prop.units if unit is None else [unit]
+        return inspection_html([unit_sheet(self.portfolio, self.by_device, prop, u, self.as_of) for u in units],
+                               self.as_of)
+
+    def monthly_card(self, prop: m.Property, unit: m.Unit) -> str:
+        return monthly_card_html(unit_sheet(self.portfolio, self.by_device, prop, unit, self.as_of), self.as_of)
+
+    @functools.cached_property
+    def _overdue_by_property(self) -> dict[str, list[Finding]]:
+        by_property: dict[str, list[Finding]] = {}
         for finding in sorted((f for f in self.findings if f.state is State.OVERDUE),
                               key=lambda f: (f.due or date.min, f.device)):
-            overdue_by_property.setdefault(finding.unit.split("/", 1)[0], []).append(finding)
-        for prop in self.portfolio.properties:
-            overdue = overdue_by_property.get(prop.id, [])
-            content = self._render("property.md.j2", property_uri(prop), prop=prop, overdue=overdue,
-                                   units=[self._unit_summary(prop, u) for u in prop.units],
-                                   devices=self._active(prop.units))
-            yield Page(property_uri(prop), content, in_nav=not many, inserts=self.inserts)
-            sheets = [unit_sheet(self.portfolio, self.by_device, prop, unit, self.as_of) for unit in prop.units]
-            yield Page(checklist_uri(prop), inspection_html(sheets, self.as_of), static=True)
-            for unit, sheet in zip(prop.units, sheets):
-                yield self.unit_page(prop, unit)
-                yield Page(checklist_uri(prop, unit), inspection_html([sheet], self.as_of), static=True)
-                yield Page(checklist_uri(prop, unit, monthly=True), monthly_card_html(sheet, self.as_of),
-                           static=True)
+            by_property.setdefault(finding.unit.split("/", 1)[0], []).append(finding)
+        return by_property
+
+    def property_page(self, prop: m.Property) -> str:
+        return self._render("property.md.j2", property_uri(prop), prop=prop,
+                            units=[self._unit_summary(prop, u) for u in prop.units])
+
+    def property_parts(self, prop: m.Property) -> dict[str, str]:
+        here = property_uri(prop)
+        return {"overdue": self._parts.overdue_table(self._overdue_by_property.get(prop.id, []),
+                                                     functools.partial(self._html_what, here)),
+                "devices": self._parts.device_table(self._active(prop.units), functools.partial(self._device_href, here),
+                                                    lambda f: when(f, self.as_of))}
 
     def _evidence_html(self, events) -> str:
         """What each recorded test sounded like: frequency, pattern, level and the envelope."""
@@ -290,7 +317,7 @@ class SiteBuilder:
         return {"unit": unit, "uri": unit_uri(prop, unit), "devices": sum(states.values()),
                 "overdue": states[State.OVERDUE], "due_soon": states[State.DUE_SOON]}
 
-    def overview(self) -> Page:
+    def overview(self) -> str:
         active = self._active(u for p in self.portfolio.properties for u in p.units)
         by_kind: dict[m.Kind, Counter] = {}
         for view in active:
@@ -312,27 +339,34 @@ class SiteBuilder:
             last_changed=self.loaded.last_changed, files=len(self.loaded.files),
             properties=self.portfolio.properties, row_limit=OVERVIEW_ROWS, property_rows=self._property_rows(),
             properties_index=PROPERTIES_INDEX if len(self.portfolio.properties) > NAV_PROPERTIES else None)
-        return Page("index.md", content)
+        return content
 
-    def unit_page(self, prop: m.Property, unit: m.Unit) -> Page:
+    def _unit_views(self, unit: m.Unit) -> tuple[list[DeviceView], list[DeviceView]]:
+        """The unit's devices in service and retired ones."""
         views = [self.views[d.uid] for d in unit.devices]
-        rooms = [(room, [v for v in views if v.device.room == room.id and not self._retired(v)])
-                 for room in unit.rooms]
-        active = [v for v in views if not self._retired(v)]
+        return [v for v in views if not self._retired(v)], [v for v in views if self._retired(v)]
+
+    def unit_page(self, prop: m.Property, unit: m.Unit) -> str:
+        active, retired = self._unit_views(unit)
+        return self._render("unit.md.j2", unit_uri(prop, unit), prop=prop, unit=unit, active=active, retired=retired)
+
+    def unit_parts(self, prop: m.Property, unit: m.Unit) -> dict[str, str]:
+        active, retired = self._unit_views(unit)
+        rooms = [(room, [v for v in active if v.device.room == room.id]) for room in unit.rooms]
         grid = monthly_grid_svg([(v.device.id, month_cells(self.portfolio, v.device, self.as_of)) for v in active])
         gaps = [f for f in self.by_device.get(unit.uid, []) if f.task == "coverage"]
-        content = self._render("unit.md.j2", unit_uri(prop, unit), prop=prop, unit=unit, rooms=rooms,
-                               grid=Markup(f'<div class="rk-figure">{grid}</div>'), gaps=gaps, rule_set=self.loaded.policy.coverage,
-                               active=[v for v in views if not self._retired(v)],
-                               retired=[v for v in views if self._retired(v)])
-        return Page(unit_uri(prop, unit), content, in_nav=False, inserts=self.inserts)
+        return {"rooms": self._parts.rooms_table(rooms, unit),
+                "coverage": self._parts.gaps_table(gaps, self.loaded.policy.coverage),
+                "grid": f'<div class="rk-figure">{grid}</div>',
+                "active": self._parts.sections(active, self._device_section),
+                "retired": self._parts.sections(retired, self._device_section)}
 
-    def rules(self) -> Page:
-        return Page("rules.md", self._render("rules.md.j2", "rules.md", rules=list(self.loaded.policy),
-                                             rule_set=self.loaded.policy.coverage))
+    def rules(self) -> str:
+        return self._render("rules.md.j2", "rules.md", rules=list(self.loaded.policy),
+                            rule_set=self.loaded.policy.coverage)
 
-    def about(self) -> Page:
-        return Page("about.md", self._render("about.md.j2", "about.md", cautions=CAUTIONS))
+    def about(self) -> str:
+        return self._render("about.md.j2", "about.md", cautions=CAUTIONS)
 
 
 def site_pages(loaded: Loaded, findings: list[Finding], as_of: date, directory_urls: bool = False) -> Iterator[Page]:
