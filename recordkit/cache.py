@@ -9,11 +9,15 @@ folder is always safe. Only files that loaded without problems are cached.
 """
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import json
 import os
 import time
 from datetime import date
+from enum import Enum
+from types import UnionType
+from typing import Union, get_args, get_origin, get_type_hints
 from datetime import time as time_of_day
 from itertools import repeat
 from pathlib import Path
@@ -21,37 +25,63 @@ from typing import Any, Callable
 
 from . import __version__
 from . import model as m
-from .yamltree import YList, YMap
+from .errors import Source
 
 CACHE_DIR = ".cache"
-FORMAT = 4
+FORMAT = 5
 CLEAN_FILE = "clean.json"
 RACY_SECONDS = 2.0
 
 
-def encode_tree(value: Any) -> Any:
-    """A located YAML tree as plain JSON data (lines kept)."""
-    if isinstance(value, YMap):
-        return {"m": [[k, encode_tree(v), value.key_lines[k], value.value_lines[k]] for k, v in value.items()],
-                "l": value.line}
-    if isinstance(value, YList):
-        return {"s": [[encode_tree(v), line] for v, line in zip(value, value.item_lines)], "l": value.line}
+def _codec(kind: Any) -> tuple[Callable[[Any], Any], Callable[[Any, str], Any]]:
+    """(encode, decode) for a value of a record field's type, as plain JSON data. A `Source` keeps only
+    its line: every record of an entry comes from the entry's file."""
+    if get_origin(kind) in (Union, UnionType):
+        inner_encode, inner_decode = _codec(next(a for a in get_args(kind) if a is not type(None)))
+        return (lambda v: None if v is None else inner_encode(v)), (lambda v, p: None if v is None else inner_decode(v, p))
+    if get_origin(kind) is tuple:
+        item_encode, item_decode = _codec(get_args(kind)[0])
+        return (lambda v: [item_encode(x) for x in v]), (lambda v, p: tuple(item_decode(x, p) for x in v))
+    if kind is Source:
+        return (lambda v: v.line), (lambda v, p: Source(p, v))
+    if kind is date:
+        return date.isoformat, (lambda v, p: date.fromisoformat(v))
+    if isinstance(kind, type) and issubclass(kind, Enum):
+        return (lambda v: v.value), (lambda v, p: kind(v))
+    if dataclasses.is_dataclass(kind):
+        hints = get_type_hints(kind)
+        names = [f.name for f in dataclasses.fields(kind)]
+        codecs = [_codec(hints[name]) for name in names]
+        converted = [(i, dec) for i, (_, dec) in enumerate(codecs) if dec is not _as_is]
+
+        def decode(values: list, path: str):
+            if len(values) != len(names):
+                raise ValueError(f"{kind.__name__}: {len(values)} values for {len(names)} fields")
+            for i, dec in converted:
+                values[i] = dec(values[i], path)
+            record = object.__new__(kind)  # the fields as checked when the entry was made (frozen: no __init__)
+            record.__dict__.update(zip(names, values))
+            return record
+        return (lambda v: [enc(getattr(v, n)) for n, (enc, _) in zip(names, codecs)]), decode
+    if kind in (str, int, float, bool):
+        return (lambda v: v), _as_is
+    raise TypeError(f"no cache codec for {kind!r}")
+
+
+def _as_is(value: Any, path: str) -> Any:
     return value
 
 
-def decode_tree(value: Any) -> Any:
-    if isinstance(value, dict):
-        if "m" in value:
-            result = YMap()
-            result.line, result.key_lines, result.value_lines = value["l"], {}, {}
-            for key, item, key_line, value_line in value["m"]:
-                result[key] = decode_tree(item)
-                result.key_lines[key], result.value_lines[key] = key_line, value_line
-            return result
-        result = YList(decode_tree(item) for item, _ in value["s"])
-        result.line, result.item_lines = value["l"], [line for _, line in value["s"]]
-        return result
-    return value
+_PROPERTY_ENCODE, _PROPERTY_DECODE = _codec(m.Property)
+
+
+def encode_property(prop: m.Property) -> list:
+    """A validated property (units, rooms, devices) as JSON data: read back without validating again."""
+    return _PROPERTY_ENCODE(prop)
+
+
+def decode_property(data: list, path: str) -> m.Property:
+    return _PROPERTY_DECODE(data, path)
 
 
 def encode_events(events: list[m.Event]) -> dict:
@@ -102,6 +132,10 @@ def decode_events(data: dict, path: str, share: Callable[[str], str], day: Calla
     return list(map(tuple.__new__, repeat(m.Event), rows))
 
 
+def _checksum(text: str) -> str:
+    return hashlib.blake2b(text.encode("utf-8"), digest_size=16).hexdigest()
+
+
 class ParseCache:
     def __init__(self, records_dir: Path, enabled: bool = True):
         self.folder = records_dir / CACHE_DIR
@@ -129,10 +163,7 @@ class ParseCache:
         return None, data, stat, digest
 
     def _load_entry(self, shown: str) -> dict | None:
-        try:
-            entry = json.loads(self._entry_path(shown).read_text(encoding="utf-8"))
-        except (OSError, ValueError):
-            return None  # missing or corrupt: parse again
+        entry = self._read(self._entry_path(shown))
         keys = {"format", "version", "path", "size", "mtime_ns", "stat_trusted", "digest", "payload"}
         if not isinstance(entry, dict) or set(entry) != keys or entry["format"] != FORMAT \
                 or entry["version"] != __version__ or entry["path"] != shown:
@@ -152,7 +183,7 @@ class ParseCache:
         if not self.enabled:
             return False
         try:
-            memo = json.loads((self.folder / CLEAN_FILE).read_text(encoding="utf-8"))
+            memo = self._read(self.folder / CLEAN_FILE)
             return memo["key"] == key and date.fromisoformat(memo["newest_event"]) <= as_of
         except (OSError, ValueError, KeyError, TypeError):
             return False
@@ -170,6 +201,16 @@ class ParseCache:
                  "mtime_ns": stat.st_mtime_ns, "stat_trusted": trusted, "digest": digest, "payload": payload}
         self._write(self._entry_path(shown), entry)
 
+    @staticmethod
+    def _read(source: Path) -> Any:
+        """What `_write` wrote, or None when it is missing or damaged in any way (its checksum tells,
+        even where the damage still reads as JSON: cached records are not validated again)."""
+        try:
+            check, _, text = source.read_text(encoding="utf-8").partition("\n")
+            return json.loads(text) if check == _checksum(text) else None
+        except (OSError, ValueError):
+            return None
+
     def _write(self, target: Path, data: dict) -> None:
         if not self.enabled:
             return
@@ -179,7 +220,8 @@ class ParseCache:
             if not ignore.exists():
                 ignore.write_text("# recordkit's parse cache: safe to delete, never commit\n*\n")
             temp = target.with_suffix(f".{os.getpid()}.tmp")
-            temp.write_text(json.dumps(data, separators=(",", ":")), encoding="utf-8")
+            text = json.dumps(data, separators=(",", ":"))
+            temp.write_text(f"{_checksum(text)}\n{text}", encoding="utf-8")
             os.replace(temp, target)
         except OSError:
             pass  # a read-only records folder just means no cache

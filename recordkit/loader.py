@@ -18,11 +18,11 @@ from typing import Any
 
 from . import csvlog
 from . import model as m
-from .cache import ParseCache, decode_events, decode_tree, encode_events, encode_tree
+from .cache import ParseCache, decode_events, decode_property, encode_events, encode_property
 from .errors import Problem, Problems, Source
 from .fields import Fields
 from .rules import Policy, apply_policy_file
-from .yamltree import YMap, read_yaml
+from .yamltree import read_yaml
 
 POLICY_FILE = "policy.yaml"
 EVIDENCE = re.compile(r"^sha256:[0-9a-f]{64}$")
@@ -112,10 +112,9 @@ def _load(root: Path, as_of: date, cache: bool) -> Loaded:
         except OSError as exc:
             problems.add(Source(shown, 0), f"cannot read: {exc.strerror or exc}")
             continue
-        before, events_before = len(problems), len(builder.events)
+        before, properties_before, events_before = len(problems), len(builder.properties), len(builder.events)
         if path.suffix == CSV_SUFFIX:
             builder.add_csv(data, shown)
-            tree = None
         else:
             tree = read_yaml(data, shown, problems)
             if is_policy:
@@ -128,7 +127,7 @@ def _load(root: Path, as_of: date, cache: bool) -> Loaded:
                 continue
             builder.add_file(tree, shown)
         if len(problems) == before:
-            parse_cache.put(shown, stat, digest, builder.cache_payload(tree, events_before))
+            parse_cache.put(shown, stat, digest, builder.cache_payload(properties_before, events_before))
     # The checks across files (an event's device exists, was in service, ...) depend only on the files'
     # content and, for "not after the as-of date", on the newest event: skip them when this exact set of
     # files loaded cleanly before.
@@ -161,36 +160,37 @@ class _Builder:
         if "property" in top.map:
             prop = self._property(top.raw("property"), path, top.map.line_of("property"))
             if prop:
-                first = self.property_sources.get(prop.id)
-                if first:
-                    self.problems.add(prop.source, f"property: duplicate id '{prop.id}' (first at {first})")
-                else:
-                    self.property_sources[prop.id] = prop.source
-                    self.properties.append(prop)
+                self._add_property(prop)
         for item, line in top.items("events"):
             event = self._event(item, path, line)
             if event:
                 self.events.append(event)
         top.finish()
 
-    # ---- the parse cache: a file's property as its tree, its events as columns --------------------
-    def cache_payload(self, tree: Any | None, events_before: int) -> dict:
+    def _add_property(self, prop: m.Property) -> None:
+        first = self.property_sources.get(prop.id)
+        if first:
+            self.problems.add(prop.source, f"property: duplicate id '{prop.id}' (first at {first})")
+        else:
+            self.property_sources[prop.id] = prop.source
+            self.properties.append(prop)
+
+    # ---- the parse cache: a file's property as the checked record, its events as columns ----------
+    def cache_payload(self, properties_before: int, events_before: int) -> dict:
         payload: dict[str, Any] = {"events": encode_events(self.events[events_before:])}
-        if tree is not None:
-            rest = YMap((k, v) for k, v in tree.items() if k != "events")
-            rest.line, rest.key_lines, rest.value_lines = tree.line, tree.key_lines, tree.value_lines
-            payload["tree"] = encode_tree(rest)
+        if len(self.properties) > properties_before:
+            payload["property"] = encode_property(self.properties[-1])
         return payload
 
     def add_cached(self, payload: Any, path: str) -> bool:
         """Add a file from its cache entry; False (nothing added) when the entry is damaged."""
         try:
             events = decode_events(payload["events"], path, self._shared, self._day)
-            tree = decode_tree(payload["tree"]) if "tree" in payload else None
+            prop = decode_property(payload["property"], path) if "property" in payload else None
         except (ValueError, KeyError, IndexError, TypeError, AttributeError):
             return False
-        if tree is not None and "property" in tree:
-            self.add_file(tree, path)
+        if prop is not None:
+            self._add_property(prop)
         self.events.extend(events)
         return True
 

@@ -76,7 +76,12 @@ def test_deleting_or_corrupting_the_cache_is_harmless(tmp_path):
     entries[0].write_text("{not json")
     entries[1].write_bytes(b"\x00\xff" * 50)
     entries[2].write_text('{"format": 2, "payload": "something else"}')
+    # damage that still reads as JSON of the right shape: a level, a date and a line number changed
+    for entry in entries[3:]:
+        text = entry.read_text()
+        entry.write_text(text.replace('"level', '"levels', 1).replace("2025-", "2024-", 1).replace(",3,", ",4,", 1))
     same(cold, load_records(folder, AS_OF))
+    assert load_records(folder, AS_OF).problems == cold.problems
     shutil.rmtree(folder / ".cache")
     same(cold, load_records(folder, AS_OF))
 
