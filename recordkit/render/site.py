@@ -10,7 +10,7 @@ import html
 import json
 import posixpath
 from collections import Counter
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Callable, Iterator
 from datetime import date, timedelta
 from pathlib import Path
@@ -154,7 +154,8 @@ class SiteBuilder:
                                     device_anchor=device_anchor)
         self.env.globals.update(badge=badge, anchor=anchor, front_title=front_title, task_label=TASK_LABELS.get, kind_label=kind_label,
                                 when=lambda f: when(f, as_of), as_of=as_of, short_caution=SHORT,
-                                state_labels=STATE_LABELS)
+                                state_labels=STATE_LABELS,
+                                part=lambda name: Markup(f"\n\n{part_marker(name)}\n\n"))  # see Page.parts
 
     # ---- helpers available to templates ------------------------------------------------
     def _render(self, template: str, here: str, **context) -> str:
@@ -189,7 +190,7 @@ class SiteBuilder:
 
         return self.env.get_template(template).render(
             here=here, link=link, device_link=device_link, where=where, views=self.views,
-            finding_what=finding_what, finding_where=finding_where, part=lambda name: Markup(f"\n\n{part_marker(name)}\n\n"),
+            finding_what=finding_what, finding_where=finding_where,
             unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor,
             checklist_uri=checklist_uri, new_unit_sheet=NEW_UNIT_SHEET, calendar_file=CALENDAR,
             schema_file=SCHEMA, **context)
