@@ -2,8 +2,6 @@
 and the only place that reads the clock (for the default as-of date)."""
 from __future__ import annotations
 
-import gc
-
 import json
 import sys
 from datetime import date
@@ -30,7 +28,6 @@ def _as_of(value) -> date:
 
 def _load(records_dir: str, as_of: date) -> Loaded:
     loaded = load_records(records_dir, as_of)
-    gc.freeze()  # the records live until the command ends: the cycle collector need not rescan them
     for problem in loaded.problems:
         click.echo(str(problem), err=True)
     if loaded.problems:

