@@ -37,8 +37,10 @@ def _codec(kind: Any) -> tuple[Callable[[Any], Any], Callable[[Any, str], Any]]:
     """(encode, decode) for a value of a record field's type, as plain JSON data. A `Source` keeps only
     its line: every record of an entry comes from the entry's file."""
     if get_origin(kind) in (Union, UnionType):
-        inner_encode, inner_decode = _codec(next(a for a in get_args(kind) if a is not type(None)))
-        return (lambda v: None if v is None else inner_encode(v)), (lambda v, p: None if v is None else inner_decode(v, p))
+        (inner,) = [a for a in get_args(kind) if a is not type(None)]  # only "X | None" is known here
+        inner_encode, inner_decode = _codec(inner)
+        return ((lambda v: None if v is None else inner_encode(v)),
+                (lambda v, p: None if v is None else inner_decode(v, p)))
     if get_origin(kind) is tuple:
         item_encode, item_decode = _codec(get_args(kind)[0])
         return (lambda v: [item_encode(x) for x in v]), (lambda v, p: tuple(item_decode(x, p) for x in v))

@@ -147,7 +147,7 @@ class SiteBuilder:
         self.env = jinja2.Environment(
             loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=False, finalize=md_text,
             trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined, keep_trailing_newline=True)
-        # device sections are HTML (put in after Markdown): a second environment that escapes for HTML
+        # the HTML parts (put in after Markdown): a second environment that escapes for HTML
         self.html_env = jinja2.Environment(loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=True,
                                            trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined)
         self.html_env.globals.update(badge=badge, kind_label=kind_label, task_label=TASK_LABELS.get, as_of=as_of,
@@ -272,7 +272,8 @@ class SiteBuilder:
         here = property_uri(prop)
         return {"overdue": self._parts.overdue_table(self._overdue_by_property.get(prop.id, []),
                                                      functools.partial(self._html_what, here)),
-                "devices": self._parts.device_table(self._active(prop.units), functools.partial(self._device_href, here),
+                "devices": self._parts.device_table(self._active(prop.units),
+                                                    functools.partial(self._device_href, here),
                                                     lambda f: when(f, self.as_of))}
 
     def _evidence_html(self, events) -> str:
