@@ -15,13 +15,12 @@ import json
 import os
 import time
 from datetime import date
-from enum import Enum
-from types import UnionType
-from typing import Union, get_args, get_origin, get_type_hints
 from datetime import time as time_of_day
+from enum import Enum
 from itertools import repeat
 from pathlib import Path
-from typing import Any, Callable
+from types import UnionType
+from typing import Any, Callable, Union, get_args, get_origin, get_type_hints
 
 from . import __version__
 from . import model as m
