@@ -27,7 +27,8 @@ from ..nodes import NodeReport, node_report
 from .charts import envelope_svg, forecast_svg, month_cells, replacement_forecast, monthly_grid_svg, yearly_costs
 from ..schema import record_schema
 from ..schedule import State
-from .checklist import blank_unit_html, findings_by_device, inspection_html, monthly_card_html, unit_sheet
+from .checklist import (UnitSheet, blank_unit_html, findings_by_device, inspection_html, monthly_card_html,
+                        unit_sheet)
 from .escape import md_text
 from .labels import STATE_LABELS, TASK_LABELS, TEMPLATES, kind_label
 
@@ -134,6 +135,9 @@ class SiteBuilder:
     def __init__(self, loaded: Loaded, findings: list[Finding], as_of: date, directory_urls: bool = False):
         self.loaded = loaded
         self.directory_urls = directory_urls
+        # A unit's checklist content serves its property's packet, its sheet and its card, which are
+        # written one after the other: keep the last 64 units' worth.
+        self._sheet_of = functools.lru_cache(maxsize=64)(self._make_sheet)
         self.portfolio = loaded.portfolio
         self.as_of = as_of
         self.findings = findings
@@ -250,11 +254,14 @@ class SiteBuilder:
 
     def inspection_sheets(self, prop: m.Property, unit: m.Unit | None = None) -> str:
         units = prop.units if unit is None else [unit]
-        return inspection_html([unit_sheet(self.portfolio, self.by_device, prop, u, self.as_of) for u in units],
-                               self.as_of)
+        return inspection_html([self._sheet_of(u.uid) for u in units], self.as_of)
 
     def monthly_card(self, prop: m.Property, unit: m.Unit) -> str:
-        return monthly_card_html(unit_sheet(self.portfolio, self.by_device, prop, unit, self.as_of), self.as_of)
+        return monthly_card_html(self._sheet_of(unit.uid), self.as_of)
+
+    def _make_sheet(self, unit_uid: str) -> UnitSheet:
+        prop, unit = self.units[unit_uid]
+        return unit_sheet(self.portfolio, self.by_device, prop, unit, self.as_of)
 
     @functools.cached_property
     def _overdue_by_property(self) -> dict[str, list[Finding]]:
