@@ -475,15 +475,14 @@ def calendar_command(records_dir, as_of, out) -> None:
 
     Each event keeps the same UID from one export to the next, so importing a
     newer file into a calendar updates the events instead of adding copies."""
-    from .exports import calendar_ics
+    from .exports import calendar_ics, calendar_tasks
 
     day = _as_of(as_of)
     loaded = _load_or_exit(records_dir, day)
     findings = evaluate(loaded.portfolio, loaded.policy, day)
     with open(out, "wb") as handle:
         handle.write(calendar_ics(loaded.portfolio, findings, day))
-    dated = sum(1 for f in findings if f.device in loaded.portfolio.devices)  # coverage gaps have no date
-    click.echo(f"Wrote {dated} task(s) to {out}")
+    click.echo(f"Wrote {len(calendar_tasks(loaded.portfolio, findings))} task(s) to {out}")
 
 
 @main.command("schema")

@@ -72,13 +72,16 @@ def calendar_ics(portfolio: m.Portfolio, findings: list[Finding], as_of: date) -
     return ("\r\n".join(map(_fold, lines)) + "\r\n").encode("utf-8")
 
 
+def calendar_tasks(portfolio: m.Portfolio, findings: list[Finding]) -> list[Finding]:
+    """The findings the calendar holds: a coverage gap belongs to a unit and has no date, so it is left out."""
+    return [finding for finding in findings if finding.device in portfolio.devices]
+
+
 def calendar_events(portfolio: m.Portfolio, findings: list[Finding], as_of: date):
-    """Each task's content lines, unfolded (coverage gaps, which have no date, are left out)."""
+    """Each calendar task's content lines, unfolded."""
     stamp = f"DTSTAMP:{as_of:%Y%m%d}T000000Z"
     sequence = f"SEQUENCE:{(as_of - date(2000, 1, 1)).days}"
-    for finding in findings:
-        if finding.device not in portfolio.devices:
-            continue  # a coverage gap belongs to a unit and has no date: it is not a calendar task
+    for finding in calendar_tasks(portfolio, findings):
         located = portfolio.devices[finding.device]
         room = located.unit.room(located.device.room)
         day = finding.due or as_of
