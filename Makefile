@@ -14,8 +14,8 @@ $(BIN)/recordkit: pyproject.toml
 	touch $@
 
 demo: $(BIN)/recordkit  ## build the demo site from records/ into site/
-	$(BIN)/recordkit check records --as-of $(DEMO_AS_OF)
-	$(BIN)/recordkit build records --as-of $(DEMO_AS_OF) --out site
+	$(BIN)/recordkit check -r records --as-of $(DEMO_AS_OF)
+	$(BIN)/recordkit build -r records --as-of $(DEMO_AS_OF) -o site
 
 test: $(BIN)/recordkit  ## run the whole test suite
 	$(BIN)/python -m pytest

@@ -48,6 +48,7 @@ class Finding:
     def as_json(self) -> dict:
         return {"device": self.device, "unit": self.unit, "kind": str(self.kind), "task": self.task,
                 "due": self.due.isoformat() if self.due else None, "state": str(self.state),
+                "label": self.state.word,
                 "reason": self.reason, "rule": self.rule, "source": self.source, "local": self.local,
                 "record": str(self.record)}
 

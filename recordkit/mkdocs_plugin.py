@@ -21,7 +21,7 @@ from mkdocs.structure.files import File, Files, InclusionLevel
 from .cautions import SHORT
 from .checks import evaluate
 from .loader import load_records
-from .render.labels import ASSETS
+from .render.labels import ASSETS, DEFAULT_SITE_CONFIG
 from .render.site import Page, part_marker, site_pages
 from .rules import Interval, Rule
 
@@ -35,6 +35,7 @@ ENV_AS_OF = "RECORDKIT_AS_OF"
 NEEDED_EXTENSIONS = ("tables", "attr_list", "md_in_html", "admonition", "toc")
 CSS = "assets/recordkit.css"
 SHIM = "assets/iframe-worker-shim.js"  # vendored (MIT) so search works from disk without a CDN
+MARK = "assets/recordkit-mark.svg"  # our logo and favicon (the built-in configuration names it)
 
 
 class RecordkitConfig(base.Config):
@@ -140,7 +141,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                                   f"remove the hand-written file of that name from {config.docs_dir}")
             inclusion = InclusionLevel.UNDEFINED if page.in_nav and not page.static else InclusionLevel.NOT_IN_NAV
             files.append(MadeFile.of(config, page, inclusion))
-        for asset in (CSS, SHIM):
+        for asset in (CSS, SHIM, MARK):
             files.append(File.generated(config, asset, abs_src_path=str(ASSETS / Path(asset).name)))
         return files
 
@@ -165,32 +166,113 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
 
 
 class SiteBuildError(Exception):
-    """A build stopped: bad records, a bad mkdocs.yml, or a MkDocs failure. The message says which."""
+    """A build stopped: bad records, a bad mkdocs.yml, an unsafe output folder, or a MkDocs failure.
+    The message says which."""
 
 
-def build_site(config_file: str, records: str, as_of: date | None, out: str | None) -> str:
-    """Build the site as `mkdocs build` would; returns the output folder."""
+CONFIG_NAMES = ("mkdocs.yml", "mkdocs.yaml")
+
+
+def find_site_config(records: Path) -> Path | None:
+    """A user's mkdocs.yml: in the records folder, else beside it (the demo keeps its one there)."""
+    for folder in (records, records.resolve().parent):
+        for name in CONFIG_NAMES:
+            if (folder / name).is_file():
+                return folder / name
+    return None
+
+
+def site_settings(records: Path, config_file: Path | None, empty_pages: Path) -> tuple[dict, Path]:
+    """MkDocs settings over the built-in configuration, and the path relative paths are read against.
+
+    The user's mkdocs.yml (if any) overrides the built-in one key by key; its `plugins` gain `recordkit`
+    if they lack it; the hand-written pages are its docs_dir, else `pages/` in the records folder, else
+    none (an empty folder)."""
+    from mkdocs.utils.yaml import yaml_load
+
+    settings: dict = {}
+    anchor = config_file or DEFAULT_SITE_CONFIG
+    if config_file:
+        try:
+            with open(config_file, "rb") as handle:
+                settings = yaml_load(handle) or {}
+        except (OSError, ValueError, MkDocsException) as exc:
+            raise SiteBuildError(f"{config_file}: cannot read the site configuration ({exc})") from None
+        if not isinstance(settings, dict):
+            raise SiteBuildError(f"{config_file}: a site configuration is a mapping of settings")
+        plugins = settings.get("plugins")
+        if plugins is not None:
+            names = [next(iter(p)) if isinstance(p, dict) else p for p in plugins]
+            if "recordkit" not in names:
+                settings["plugins"] = [*plugins, "recordkit"]
+    base_dir = anchor.resolve().parent
+    if settings.get("docs_dir"):
+        settings["docs_dir"] = str(base_dir / settings["docs_dir"])
+    else:
+        own_pages = records / "pages"
+        settings["docs_dir"] = str(own_pages.resolve() if own_pages.is_dir() else empty_pages)
+    theme = settings.get("theme")
+    if isinstance(theme, dict) and theme.get("custom_dir"):
+        theme["custom_dir"] = str(base_dir / theme["custom_dir"])
+    return settings, anchor
+
+
+def build_site(records: Path, as_of: date | None, out: Path | None, config_file: Path | None = None,
+               force: bool = False) -> Path:
+    """Build the site as `mkdocs build` would, with the built-in configuration unless the user has a
+    mkdocs.yml; returns the output folder. Refuses an unsafe output folder before anything is removed."""
+    import tempfile
+
     from mkdocs.commands.build import build
     from mkdocs.config import load_config
 
+    from .outdir import OutputRefused, check_output, default_output, mark_built
+
+    config_file = config_file or find_site_config(records)
     _pass_arguments(records, as_of)
-    overrides = {"site_dir": os.path.abspath(out)} if out else {}
-    try:
-        config = load_config(config_file, **overrides)
-        build(config)
-    except MkDocsException as exc:
-        raise SiteBuildError(str(exc)) from None
-    return config.site_dir
+    with tempfile.TemporaryDirectory(prefix="recordkit-pages-") as empty_pages:
+        settings, anchor = site_settings(records, config_file, Path(empty_pages))
+        if out is None:
+            out = (anchor.resolve().parent / settings["site_dir"]) if config_file and settings.get("site_dir") \
+                else default_output(records)
+        settings["site_dir"] = str(Path(out).resolve())
+        protected = (Path(settings["docs_dir"]),) + ((config_file.resolve().parent,) if config_file else ())
+        try:
+            check_output(Path(out), records, protected, force)
+        except OutputRefused as exc:
+            raise SiteBuildError(str(exc)) from None
+        try:
+            config = load_config(str(DEFAULT_SITE_CONFIG), config_file_path=str(anchor), **settings)
+            build(config)
+        except MkDocsException as exc:
+            raise SiteBuildError(str(exc)) from None
+    mark_built(Path(config.site_dir))
+    return Path(config.site_dir)
 
 
-def serve_site(config_file: str, records: str, as_of: date | None, address: str) -> None:
+def serve_site(records: Path, as_of: date | None, address: str, config_file: Path | None = None) -> None:
+    """Serve the site (built into a temporary folder by MkDocs) and rebuild when a record changes."""
+    import tempfile
+
     from mkdocs.commands.serve import serve
 
+    config_file = config_file or find_site_config(records)
     _pass_arguments(records, as_of)
-    try:
-        serve(config_file=config_file, dev_addr=address, livereload=True)
-    except MkDocsException as exc:
-        raise SiteBuildError(str(exc)) from None
+    with tempfile.TemporaryDirectory(prefix="recordkit-pages-") as empty_pages:
+        settings, anchor = site_settings(records, config_file, Path(empty_pages))
+        settings.pop("site_dir", None)  # MkDocs serves from a temporary folder of its own
+        try:
+            serve(config_file=str(DEFAULT_SITE_CONFIG), config_file_path=str(anchor), dev_addr=address,
+                  livereload=True, **settings)
+        except MkDocsException as exc:
+            raise SiteBuildError(str(exc)) from None
+
+
+def _pass_arguments(records: Path, as_of: date | None) -> None:
+    os.environ[ENV_RECORDS] = str(records)
+    if as_of:
+        os.environ[ENV_AS_OF] = as_of.isoformat()
+    os.environ.setdefault("NO_MKDOCS_2_WARNING", "1")
 
 
 def _shown(path: Path) -> Path:
@@ -199,10 +281,3 @@ def _shown(path: Path) -> Path:
         return path.resolve().relative_to(Path.cwd())
     except ValueError:
         return path
-
-
-def _pass_arguments(records: str, as_of: date | None) -> None:
-    os.environ[ENV_RECORDS] = records
-    if as_of:
-        os.environ[ENV_AS_OF] = as_of.isoformat()
-    os.environ.setdefault("NO_MKDOCS_2_WARNING", "1")

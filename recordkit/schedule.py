@@ -20,8 +20,19 @@ class State(StrEnum):
     def rank(self) -> int:
         return _RANK[self]
 
+    @property
+    def word(self) -> str:
+        """The one set of state words: terminal, JSON, site and sheets."""
+        return _WORDS[self][1]
+
+    @property
+    def symbol(self) -> str:
+        """A symbol beside the word, so state never rests on colour alone."""
+        return _WORDS[self][0]
+
 
 _RANK = {State.OVERDUE: 0, State.DUE_SOON: 1, State.OK: 2}
+_WORDS = {State.OVERDUE: ("‼", "Overdue"), State.DUE_SOON: ("◔", "Due soon"), State.OK: ("✓", "In date")}
 
 
 def add(start: date, interval: Interval) -> date:

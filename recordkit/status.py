@@ -11,7 +11,7 @@ from .checks import TASK_ORDER, Finding
 from .schedule import State
 
 WIDTH = 80
-LABELS = {State.OVERDUE: "[!!] OVERDUE", State.DUE_SOON: "[..] SOON", State.OK: "[  ] ok"}
+LABELS = {state: f"{state.symbol} {state.word}" for state in State}  # the site's words and symbols
 
 
 def counts(findings: list[Finding]) -> Counter:
@@ -23,6 +23,17 @@ def status_json(findings: list[Finding], as_of: date, root: str) -> dict:
     return {"as_of": as_of.isoformat(), "records": root,
             "summary": {str(state): tally.get(state, 0) for state in State},
             "items": [f.as_json() for f in findings]}
+
+
+def monitor_line(findings: list[Finding], as_of: date) -> str:
+    """One line in the open monitoring-plugin style: a status word, a summary and performance data."""
+    tally = counts(findings)
+    overdue, soon = tally[State.OVERDUE], tally[State.DUE_SOON]
+    word = "CRITICAL" if overdue else "WARNING" if soon else "OK"
+    first = next((f for f in sorted(findings, key=lambda f: f.state.rank) if f.state is not State.OK), None)
+    detail = f"; first: {first.device} {first.task}" if first else ""
+    return (f"ALARM RECORDS {word} - {overdue} overdue, {soon} due soon as of {as_of}{detail}"
+            f" | overdue={overdue} due_soon={soon} in_date={tally[State.OK]}")
 
 
 def _when(finding: Finding, as_of: date) -> str:
@@ -37,7 +48,7 @@ def _when(finding: Finding, as_of: date) -> str:
 def status_text(findings: list[Finding], portfolio: m.Portfolio, as_of: date, show_ok: bool = False) -> str:
     tally = counts(findings)
     lines = [f"Alarm records as of {as_of}: {tally[State.OVERDUE]} overdue, "
-             f"{tally[State.DUE_SOON]} due soon, {tally[State.OK]} ok", ""]
+             f"{tally[State.DUE_SOON]} due soon, {tally[State.OK]} in date", ""]
     shown = [f for f in findings if show_ok or f.state is not State.OK]
     by_unit: dict[str, list[Finding]] = {}
     for finding in shown:
@@ -51,7 +62,7 @@ def status_text(findings: list[Finding], portfolio: m.Portfolio, as_of: date, sh
             lines.append(f"  {unit.name} [{unit.id}]")
             for f in sorted(by_unit[unit.uid], key=lambda f: (f.state.rank, TASK_ORDER[f.task], f.due or date.min)):
                 device_id = "(unit)" if f.device == f.unit else f.device.rsplit("/", 1)[1]
-                lines.append(f"    {LABELS[f.state]:<13}{device_id} - {f.task}, {_when(f, as_of)}")
+                lines.append(f"    {LABELS[f.state]:<11}{device_id} - {f.task}, {_when(f, as_of)}")
                 lines += _wrap(f.reason, "        ")
                 local = "local policy: " if f.local else ""
                 lines += _wrap(f"rule {f.rule} ({local}{f.source})", "        ")

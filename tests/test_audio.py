@@ -120,7 +120,7 @@ def sox_temporal_3(folder, freq=3200, bits=16):
 @pytest.mark.parametrize("bits", [16, 24])
 def test_a_recording_written_by_sox_is_heard(tmp_path, bits):
     recording = sox_temporal_3(tmp_path, bits=bits)
-    result = run_cli("hear", str(recording), "--json")
+    result = run_cli("hear", str(recording), "--format", "json")
     assert result.returncode == 0, result.stderr
     report = json.loads(result.stdout)
     # sox synthesised 3.2 kHz, gated to ISO 8201 temporal-3 timing
@@ -191,7 +191,7 @@ def test_hear_log_appends_a_test_with_evidence_and_the_unit_page_shows_it(tmp_pa
                    "--date", f"{date.today()} 09:40").returncode == 0
     assert len(list((records / "evidence").glob("*.wav"))) == 2 and kept.exists()
     out = tmp_path / "site"
-    built = run_cli("build", str(records), "--as-of", date.today().isoformat(), "--out", str(out))
+    built = run_cli("build", "-r", str(records), "--as-of", date.today().isoformat(), "--out", str(out))
     assert built.returncode == 0, built.stderr
     page = (out / "properties/tansy-house/flat-2.html").read_text()
     assert "Recorded evidence" in page and "temporal-3" in page and "rk-envelope" in page

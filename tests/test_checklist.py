@@ -27,14 +27,14 @@ def pdf_text(path, page: int) -> str:
 @pytest.fixture(scope="module")
 def packet(tmp_path_factory):
     out = tmp_path_factory.mktemp("pdf") / "tansy-house.pdf"
-    result = run_cli("checklist", "records", "--property", "tansy-house", "--as-of", AS_OF, "--out", str(out))
+    result = run_cli("checklist", "-r", "records", "--property", "tansy-house", "--as-of", AS_OF, "--out", str(out))
     assert result.returncode == 0, result.stderr
     return out
 
 
 @needs_poppler
 def test_packet_has_one_page_per_unit_with_every_device_and_overdue_item(packet):
-    status = json.loads(run_cli("status", "records", "--as-of", AS_OF, "--format", "json").stdout)
+    status = json.loads(run_cli("status", "-r", "records", "--as-of", AS_OF, "--format", "json").stdout)
     items = [i for i in status["items"] if i["device"].startswith("tansy-house/")]
     units = sorted({i["unit"].split("/")[1] for i in items}, key=["flat-g", "flat-1", "flat-2"].index)
     assert pdf_pages(packet) == len(units) == 3  # one unit per page, no cover
@@ -75,7 +75,7 @@ def test_first_page_renders_and_is_not_blank(packet):
 @pytest.mark.parametrize("sheet, extra", [("monthly", ["--unit", "home"]), ("blank", [])])
 def test_monthly_card_and_blank_sheet_fit_one_page(tmp_path, sheet, extra):
     out = tmp_path / f"{sheet}.pdf"
-    args = ["checklist", "records", "--property", "bramble-cottage", *extra, "--sheet", sheet, "--paper", "letter"]
+    args = ["checklist", "-r", "records", "--property", "bramble-cottage", *extra, "--sheet", sheet, "--paper", "letter"]
     result = run_cli(*args, "--as-of", AS_OF, "--out", str(out))
     assert result.returncode == 0, result.stderr
     assert pdf_pages(out) == 1
@@ -90,10 +90,10 @@ def test_monthly_card_and_blank_sheet_fit_one_page(tmp_path, sheet, extra):
 
 
 def test_checklist_usage_errors():
-    assert run_cli("checklist", "records", "--out", "x.pdf").returncode == 2  # no --property
-    bad = run_cli("checklist", "records", "--property", "nowhere", "--as-of", AS_OF, "--out", "x.html")
+    assert run_cli("checklist", "-r", "records", "--out", "x.pdf").returncode == 2  # no --property
+    bad = run_cli("checklist", "-r", "records", "--property", "nowhere", "--as-of", AS_OF, "--out", "x.html")
     assert bad.returncode == 2 and "no property 'nowhere'" in bad.stderr
-    assert run_cli("checklist", "records", "--property", "tansy-house", "--out", "x.txt").returncode == 2
+    assert run_cli("checklist", "-r", "records", "--property", "tansy-house", "--out", "x.txt").returncode == 2
 
 
 def twelve_device_unit(records):
@@ -115,7 +115,7 @@ def test_twelve_device_sheet_prints_on_one_page_in_chromium(browser, records, tm
 
     folder = twelve_device_unit(records)
     sheet = tmp_path / "sheet.html"
-    result = run_cli("checklist", str(folder), "--property", "test-house", "--unit", "main", "--as-of", AS_OF,
+    result = run_cli("checklist", "-r", str(folder), "--property", "test-house", "--unit", "main", "--as-of", AS_OF,
                      "--out", str(sheet))
     assert result.returncode == 0, result.stderr
     browser.get(sheet.as_uri())

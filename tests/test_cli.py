@@ -21,7 +21,7 @@ def test_every_command_has_help(command):
 
 def test_check_exit_0_on_sound_records(records):
     folder = records({"h.yaml": HOUSE + device_yaml(**SMOKE, manufactured="2020-01")})
-    result = run_cli("check", str(folder), "--as-of", AS_OF)
+    result = run_cli("check", "-r", str(folder), "--as-of", AS_OF)
     assert result.returncode == 0, result.stderr
     assert "1 devices" in result.stdout and "no problems" in result.stdout
 
@@ -29,7 +29,7 @@ def test_check_exit_0_on_sound_records(records):
 def test_check_exit_1_with_file_line_messages_and_no_traceback(records):
     folder = records({"h.yaml": HOUSE + device_yaml(**SMOKE, manufactured="2020-02-30"),
                       "log.yaml": "events:\n  - {date: 2026-01-01, device: a/b/c, action: clean}\n"})
-    result = run_cli("check", str(folder), "--as-of", AS_OF)
+    result = run_cli("check", "-r", str(folder), "--as-of", AS_OF)
     assert result.returncode == 1
     assert "Traceback" not in result.stderr
     assert re.search(r"h\.yaml:11: device 's1': 'manufactured': 2020-02-30 is not a real date", result.stderr)
@@ -41,10 +41,10 @@ def test_status_exit_codes(records):
     fresh = records({"h.yaml": HOUSE + device_yaml(**{**SMOKE, "installed": "2026-11-20"}, manufactured="2026-10")
                      + device_yaml(**{**SMOKE, "id": "s2", "room": "bed-1", "installed": "2026-11-20"},
                                    manufactured="2026-10")})
-    assert run_cli("status", str(fresh), "--as-of", AS_OF).returncode == 0  # nothing overdue
-    assert run_cli("status", str(fresh), "--as-of", "2027-01-01").returncode == 3  # test overdue by then
+    assert run_cli("status", "-r", str(fresh), "--as-of", AS_OF).returncode == 0  # nothing overdue
+    assert run_cli("status", "-r", str(fresh), "--as-of", "2027-01-01").returncode == 3  # test overdue by then
     broken = records({"h.yaml": HOUSE + device_yaml(**SMOKE, manufactured="soon")})
-    assert run_cli("status", str(broken), "--as-of", AS_OF).returncode == 1
+    assert run_cli("status", "-r", str(broken), "--as-of", AS_OF).returncode == 1
 
 
 def test_status_json_contract(records):
@@ -52,7 +52,7 @@ def test_status_json_contract(records):
                       + device_yaml(**SMOKE, manufactured="2016-06")
                       + device_yaml(id="b1", kind="co", room="hall", power="battery", manufactured="unknown",
                                     installed="2024-01-01")})
-    result = run_cli("status", str(folder), "--as-of", AS_OF, "--format", "json")
+    result = run_cli("status", "-r", str(folder), "--as-of", AS_OF, "--format", "json")
     assert result.returncode == 3
     report = json.loads(result.stdout)
     assert report["as_of"] == AS_OF
@@ -75,14 +75,14 @@ def test_status_json_contract(records):
 
 def test_status_json_with_errors_lists_them(records):
     folder = records({"h.yaml": HOUSE + device_yaml(**SMOKE, manufactured="soon")})
-    result = run_cli("status", str(folder), "--as-of", AS_OF, "--format", "json")
+    result = run_cli("status", "-r", str(folder), "--as-of", AS_OF, "--format", "json")
     report = json.loads(result.stdout)
     assert result.returncode == 1 and report["items"] == []
     assert report["errors"][0]["line"] == 11 and report["errors"][0]["file"].endswith("h.yaml")
 
 
 def test_status_text_fits_80_columns_and_ends_with_the_caution():
-    result = run_cli("status", "records", "--as-of", DEMO_AS_OF.isoformat(), "--all")
+    result = run_cli("status", "-r", "records", "--as-of", DEMO_AS_OF.isoformat(), "--all")
     assert result.returncode == 3, result.stderr
     lines = result.stdout.splitlines()
     assert max(len(line) for line in lines) <= 80
@@ -99,12 +99,12 @@ def test_status_text_fits_80_columns_and_ends_with_the_caution():
 
 
 def test_bad_as_of_is_a_usage_error():
-    result = run_cli("status", "records", "--as-of", "01/12/2026")
+    result = run_cli("status", "-r", "records", "--as-of", "01/12/2026")
     assert result.returncode == 2 and "01/12/2026" in result.stderr
 
 
 def test_rules_lists_sources_and_local_overrides():
-    result = run_cli("rules", "records", "--as-of", DEMO_AS_OF.isoformat())
+    result = run_cli("rules", "-r", "records", "--as-of", DEMO_AS_OF.isoformat())
     assert result.returncode == 0
     assert "smoke_life: 10 years  [default]" in result.stdout
     assert re.search(r"due_soon_battery: 45 days  \[local, records/policy\.yaml:\d+\]", result.stdout)

@@ -153,7 +153,7 @@ def test_import_bad_header(records, tmp_path):
 # ---- export, round trip ---------------------------------------------------------------------
 
 def test_csv_import_round_trips_the_export(demo_copy, tmp_path):
-    exported = run_cli("export", str(demo_copy), "--as-of", AS_OF, "--format", "csv", "--table", "events")
+    exported = run_cli("export", "-r", str(demo_copy), "--as-of", AS_OF, "--format", "csv", "--table", "events")
     assert exported.returncode == 0
     original = {(e.date, e.device, e.action, e.result, e.by, e.note)
                 for e in load_records(demo_copy, DEMO_AS_OF).portfolio.events}
@@ -168,11 +168,11 @@ def test_csv_import_round_trips_the_export(demo_copy, tmp_path):
 
 
 def test_device_export_agrees_with_status():
-    status = json.loads(run_cli("status", "records", "--as-of", AS_OF, "--format", "json").stdout)
-    rows = list(csv.DictReader(io.StringIO(run_cli("export", "records", "--as-of", AS_OF).stdout)))
+    status = json.loads(run_cli("status", "-r", "records", "--as-of", AS_OF, "--format", "json").stdout)
+    rows = list(csv.DictReader(io.StringIO(run_cli("export", "-r", "records", "--as-of", AS_OF).stdout)))
     test_due = {i["device"]: i["due"] for i in status["items"] if i["task"] == "test"}
     assert {r["device"]: r["test_due"] for r in rows} == test_due
-    exported = json.loads(run_cli("export", "records", "--as-of", AS_OF, "--format", "json").stdout)
+    exported = json.loads(run_cli("export", "-r", "records", "--as-of", AS_OF, "--format", "json").stdout)
     assert len(exported["devices"]) == len(rows) and len(exported["events"]) == len(
         load_records(DEMO_RECORDS, DEMO_AS_OF).portfolio.events)
 
@@ -187,8 +187,8 @@ def read_ics(path):
 
 def test_calendar_has_the_same_tasks_and_dates_as_status(tmp_path):
     out = tmp_path / "due.ics"
-    assert run_cli("calendar", "records", "--as-of", AS_OF, "-o", str(out)).returncode == 0
-    status = json.loads(run_cli("status", "records", "--as-of", AS_OF, "--format", "json").stdout)
+    assert run_cli("calendar", "-r", "records", "--as-of", AS_OF, "-o", str(out)).returncode == 0
+    status = json.loads(run_cli("status", "-r", "records", "--as-of", AS_OF, "--format", "json").stdout)
     # every dated or device task; coverage gaps belong to a unit and are not calendar events
     expected = sorted((i["device"], i["task"], i["due"] or "unknown") for i in status["items"]
                       if i["task"] != "coverage")
@@ -205,8 +205,8 @@ def test_calendar_has_the_same_tasks_and_dates_as_status(tmp_path):
 
 def test_calendar_uids_are_stable_so_reimport_updates(tmp_path):
     first, second = tmp_path / "a.ics", tmp_path / "b.ics"
-    run_cli("calendar", "records", "--as-of", AS_OF, "-o", str(first))
-    run_cli("calendar", "records", "--as-of", "2026-12-20", "-o", str(second))
+    run_cli("calendar", "-r", "records", "--as-of", AS_OF, "-o", str(first))
+    run_cli("calendar", "-r", "records", "--as-of", "2026-12-20", "-o", str(second))
     uids = lambda path: {str(e["UID"]): int(e["SEQUENCE"]) for e in read_ics(path).walk("VEVENT")}  # noqa: E731
     a, b = uids(first), uids(second)
     assert len(a) == len(list(read_ics(first).walk("VEVENT")))  # unique
@@ -298,9 +298,9 @@ def test_hostile_text_stays_inert_in_the_calendar(records, tmp_path):
                       + "events:\n  - {date: 2026-11-01, device: test-house/main/s1, action: test, result: fail, "
                         f'note: "{evil}"}}\n'})
     out = tmp_path / "due.ics"
-    assert run_cli("calendar", str(folder), "--as-of", AS_OF, "-o", str(out)).returncode == 0
+    assert run_cli("calendar", "-r", str(folder), "--as-of", AS_OF, "-o", str(out)).returncode == 0
     events = list(Calendar.from_ical(out.read_bytes()).walk("VEVENT"))
-    status = json.loads(run_cli("status", str(folder), "--as-of", AS_OF, "--format", "json").stdout)
+    status = json.loads(run_cli("status", "-r", str(folder), "--as-of", AS_OF, "--format", "json").stdout)
     assert len(events) == len([i for i in status["items"] if i["task"] != "coverage"])  # nothing injected
     assert not any(str(e["SUMMARY"]) == "injected" for e in events)
     fix = next(e for e in events if str(e["X-RECORDKIT-TASK"]) == "fix")

@@ -66,7 +66,7 @@ def test_the_cli_never_shows_a_traceback_on_broken_records(tmp_path):
         folder.mkdir()
         write_mutant(folder, seed * 7919)
         for command in (["check"], ["status", "--format", "json"]):
-            result = run_cli(*command, str(folder), "--as-of", AS_OF.isoformat())
+            result = run_cli(*command, "-r", str(folder), "--as-of", AS_OF.isoformat())
             assert "Traceback" not in result.stderr and result.returncode in (0, 1, 3), result.stderr[-500:]
 
 

@@ -25,7 +25,7 @@ def node_house(node_extra="", events="", listen="{device: s1, distance_m: 6, doo
 
 def node_json(records, **kwargs):
     folder = records({"p.yaml": node_house(**kwargs)})
-    result = run_cli("node", str(folder), "p/u/n1", "--as-of", AS_OF.isoformat(), "--format", "json")
+    result = run_cli("node", "p/u/n1", "-r", str(folder), "--as-of", AS_OF.isoformat(), "--format", "json")
     assert result.returncode == 0, result.stderr
     return json.loads(result.stdout), folder
 
@@ -99,7 +99,7 @@ def test_a_report_counts_as_the_nodes_own_test(records):
 
 def test_node_command_refuses_a_non_node(records):
     folder = records({"p.yaml": node_house()})
-    result = run_cli("node", str(folder), "p/u/s1")
+    result = run_cli("node", "p/u/s1", "-r", str(folder))
     assert result.returncode == 2 and "no listening node 'p/u/s1'" in result.stderr and "p/u/n1" in result.stderr
 
 

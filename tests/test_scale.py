@@ -28,7 +28,7 @@ def test_generated_portfolio_is_sound_and_the_same_for_the_same_seed(portfolio, 
 
 def test_200_units_build_with_working_links_and_a_short_overview(portfolio, tmp_path):
     out = tmp_path / "site"
-    result = run_cli("build", str(portfolio), "--as-of", DEMO_AS_OF.isoformat(), "--out", str(out))
+    result = run_cli("build", "-r", str(portfolio), "--as-of", DEMO_AS_OF.isoformat(), "--out", str(out))
     assert result.returncode == 0, result.stderr
     unit_pages = list((out / "properties").glob("*/*.html"))
     assert len(unit_pages) == 200

@@ -13,13 +13,13 @@ AS_OF = DEMO_AS_OF.isoformat()
 @pytest.fixture(scope="module")
 def demo_site(tmp_path_factory):
     out = tmp_path_factory.mktemp("site") / "site"
-    result = run_cli("build", "records", "--as-of", AS_OF, "--out", str(out))
+    result = run_cli("build", "-r", "records", "--as-of", AS_OF, "--out", str(out))
     assert result.returncode == 0, result.stderr
     return out
 
 
 def test_expected_pages_exist(demo_site):
-    for page in ["index.html", "rules.html", "about.html", "keeping-records.html",
+    for page in ["index.html", "rules.html", "about.html", "keeping-records.html", "about-the-demo.html",
                  "properties/tansy-house.html", "properties/bramble-cottage.html",
                  "properties/tansy-house/flat-g.html", "properties/tansy-house/flat-1.html",
                  "properties/tansy-house/flat-2.html", "properties/bramble-cottage/home.html"]:
@@ -39,7 +39,7 @@ def test_nothing_is_fetched_from_outside(demo_site):
 
 
 def test_overdue_items_from_status_json_are_on_the_overview(demo_site):
-    status = json.loads(run_cli("status", "records", "--as-of", AS_OF, "--format", "json").stdout)
+    status = json.loads(run_cli("status", "-r", "records", "--as-of", AS_OF, "--format", "json").stdout)
     overdue = [item for item in status["items"] if item["state"] == "overdue"]
     assert overdue  # the demo has overdue work
     overview = scan(demo_site / "index.html")
@@ -96,7 +96,7 @@ def test_record_text_is_escaped(records, tmp_path):
         location=json.dumps(HOSTILE)) + "events:\n  - {date: 2026-11-01, device: test-house/main/s1, "
         f"action: test, result: pass, note: {json.dumps('<img src=x onerror=alert(2)>')}}}\n"})
     out = tmp_path / "site"
-    result = run_cli("build", str(folder), "--as-of", AS_OF, "--out", str(out))
+    result = run_cli("build", "-r", str(folder), "--as-of", AS_OF, "--out", str(out))
     assert result.returncode == 0, result.stderr
     for page_path in [out / "index.html", out / "properties/test-house.html", out / "properties/test-house/main.html"]:
         html = page_path.read_text()
@@ -114,7 +114,7 @@ def test_record_text_is_escaped(records, tmp_path):
 def test_build_with_a_record_error_fails_with_file_and_line(records, tmp_path):
     folder = records({"h.yaml": HOUSE + device_yaml(id="s1", kind="smoke", room="attic", power="sealed",
                                                     manufactured="2020-01", installed="2020-02-01")})
-    result = run_cli("build", str(folder), "--as-of", AS_OF, "--out", str(tmp_path / "site"))
+    result = run_cli("build", "-r", str(folder), "--as-of", AS_OF, "--out", str(tmp_path / "site"))
     assert result.returncode == 1
     assert re.search(r"h\.yaml:11: device 's1': room 'attic' is not a room of this unit", result.stderr)
     assert "Traceback" not in result.stderr
@@ -143,7 +143,7 @@ def test_links_hold_with_directory_urls(tmp_path):
     config = (REPO / "mkdocs.yml").read_text()
     config = config.replace("use_directory_urls: false", "use_directory_urls: true")
     config = config.replace("  - offline", "")  # Material's offline plugin turns directory URLs off
-    config = config.replace("docs_dir: site_templates/pages", f"docs_dir: {REPO / 'site_templates/pages'}")
+    config = config.replace("docs_dir: records/pages", f"docs_dir: {REPO / 'records/pages'}")
     config = config.replace("records: records", f"records: {REPO / 'records'}")
     (tmp_path / "mkdocs.yml").write_text(config)
     env = {**os.environ, "RECORDKIT_AS_OF": AS_OF, "NO_MKDOCS_2_WARNING": "1"}

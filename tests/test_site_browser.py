@@ -6,7 +6,7 @@ from .conftest import ARTIFACTS, DEMO_AS_OF, run_cli
 
 def test_overview_to_unit_page_and_back(browser, tmp_path):
     out = tmp_path / "site"
-    result = run_cli("build", "records", "--as-of", DEMO_AS_OF.isoformat(), "--out", str(out))
+    result = run_cli("build", "-r", "records", "--as-of", DEMO_AS_OF.isoformat(), "--out", str(out))
     assert result.returncode == 0, result.stderr
     overview = (out / "index.html").as_uri()
     browser.get(overview)
@@ -57,7 +57,7 @@ def test_hostile_record_text_runs_no_script_in_the_browser(browser, tmp_path):
         + "events:\n  - {date: 2026-11-01, device: test-house/main/s1, action: test, result: fail, "
         f"note: {json.dumps(HOSTILE['note'])}}}\n")
     out = tmp_path / "site"
-    result = run_cli("build", str(records), "--as-of", DEMO_AS_OF.isoformat(), "--out", str(out))
+    result = run_cli("build", "-r", str(records), "--as-of", DEMO_AS_OF.isoformat(), "--out", str(out))
     assert result.returncode == 0, result.stderr
     for page in ["index.html", "properties/test-house.html", "properties/test-house/main.html",
                  "checklists/test-house/main.html", "checklists/test-house.html"]:

@@ -4,13 +4,17 @@ from __future__ import annotations
 from pathlib import Path
 
 from .. import model as m
+from .. import site_templates
 from ..schedule import State
 
-TEMPLATES = Path(__file__).resolve().parents[2] / "site_templates"
+# Package data: the top-level site_templates/ folder, installed as recordkit.site_templates.
+TEMPLATES = Path(site_templates.__file__).resolve().parent
 ASSETS = TEMPLATES / "assets"
+STARTER = TEMPLATES / "starter"
+DEFAULT_SITE_CONFIG = TEMPLATES / "site.yml"
 
-# Our own state labels: a symbol and a word, so state never rests on colour alone.
-STATE_LABELS = {State.OVERDUE: ("‼", "Overdue"), State.DUE_SOON: ("◔", "Due soon"), State.OK: ("✓", "In date")}
+# Our own state labels: a symbol and a word, so state never rests on colour alone (one set, in schedule).
+STATE_LABELS = {state: (state.symbol, state.word) for state in State}
 TASK_LABELS = {"replace": "Replace", "test": "Test", "battery": "Battery", "fix": "Fix",
                "coverage": "Coverage", "node": "Hearing check"}
 

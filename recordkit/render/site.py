@@ -139,6 +139,7 @@ class SiteBuilder:
         # written one after the other: keep the last 64 units' worth.
         self._sheet_of = functools.lru_cache(maxsize=64)(self._make_sheet)
         self.portfolio = loaded.portfolio
+        self.folder = Path(loaded.root).resolve().name or str(loaded.root)  # as the user names it
         self.as_of = as_of
         self.findings = findings
         self.by_device = by_device = findings_by_device(findings)
@@ -233,6 +234,7 @@ class SiteBuilder:
         yield Page("index.md", self.overview)
         yield Page("rules.md", self.rules)
         yield Page("about.md", self.about)
+        yield Page("keeping-records.md", self.keeping_records)
         yield Page(NEW_UNIT_SHEET, blank_unit_html, static=True)
         yield Page(CALENDAR, lambda: calendar_ics(self.portfolio, self.findings, self.as_of).decode(), static=True)
         yield Page(SCHEMA, lambda: json.dumps(record_schema(), indent=2) + "\n", static=True)
@@ -373,6 +375,14 @@ class SiteBuilder:
     def rules(self) -> str:
         return self._render("rules.md.j2", "rules.md", rules=list(self.loaded.policy),
                             rule_set=self.loaded.policy.coverage)
+
+    def keeping_records(self) -> str:
+        """How to keep these records, with examples from the user's own ids (not the demo's)."""
+        located = next(iter(self.portfolio.devices.values()), None)
+        unit = located.unit.uid if located else next(
+            (u.uid for p in self.portfolio.properties for u in p.units), "PROPERTY/UNIT")
+        return self._render("keeping_records.md.j2", "keeping-records.md", folder=self.folder,
+                            device=located.device.uid if located else f"{unit}/DEVICE", unit=unit)
 
     def about(self) -> str:
         return self._render("about.md.j2", "about.md", cautions=CAUTIONS)

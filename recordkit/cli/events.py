@@ -1,0 +1,262 @@
+"""Commands that bring events in or take them out: log, import, export, hear."""
+from __future__ import annotations
+
+import sys
+from datetime import date, datetime
+from pathlib import Path
+
+import click
+
+from ..checks import evaluate
+from ..errors import Source
+from .options import (command, EXIT_ERRORS, as_of_day, as_of_option, date_option, emit, format_option, load,
+                      load_or_exit, now, out_option, print_json, records_option, today)
+
+file_option = click.option("--file", "log_file", metavar="PATH",
+                           help="Append to this file, relative to the records folder "
+                                "(default: log/YEAR.yaml for the event's year).")
+
+
+def register(main: click.Group) -> None:
+    for command in (log_command, import_command, export_command, hear):
+        main.add_command(command)
+
+
+def write_or_exit(records_dir: Path, events, log_file: str | None) -> None:
+    """Append events (checked already); exit 1 with the reason when nothing (or maybe something) was written."""
+    from ..intake import IntakeError, write_events
+    from ..logbook import LogWriteError, MaybeWritten
+
+    try:
+        written = write_events(records_dir, events, log_file)
+    except (IntakeError, LogWriteError) as exc:
+        click.echo(f"Not written: {exc}", err=True)
+        sys.exit(EXIT_ERRORS)
+    except MaybeWritten as exc:
+        click.echo(str(exc), err=True)
+        sys.exit(EXIT_ERRORS)
+    for path, count in written.items():
+        click.echo(f"Appended {count} event(s) to {path}")
+
+
+def refuse_problems(loaded, events, day: date) -> None:
+    """Exit 1, writing nothing, when any new event breaks the records' rules."""
+    from ..intake import check_new_events
+
+    problems = check_new_events(loaded, [(e, Source(e.device, 0)) for e in events], day)
+    if problems:
+        for problem in problems:
+            click.echo(f"Not written: {problem}", err=True)
+        sys.exit(EXIT_ERRORS)
+
+
+def split_when(when: datetime | None) -> tuple[date, object]:
+    """The day and (when one was given) the time of day of a --date value; today with no time by default."""
+    if when is None:
+        return today(), None
+    clock = when.time()
+    return when.date(), (clock if (clock.hour, clock.minute, clock.second) != (0, 0, 0) else None)
+
+
+@command("log")
+@click.argument("words", nargs=-1, required=True, metavar="[DEVICE] ACTION")
+@records_option
+@click.option("--unit", "unit_uid", metavar="PROPERTY/UNIT",
+              help="Log ACTION for every device in service in this unit (a walk-round); then give no DEVICE.")
+@click.option("--result", type=click.Choice(["pass", "fail"]), help="Required for a test.")
+@date_option("When it was done (default: today); a time of day may follow. Not in the future.")
+@click.option("--by", default="", help="Who did it.")
+@click.option("--note", default="", help="A note, e.g. what was done about a failure.")
+@file_option
+def log_command(words, records_dir: Path, unit_uid, result, when, by, note, log_file) -> None:
+    """Record a test, battery change, replacement, cleaning, inspection or note.
+
+    DEVICE is property/unit/device; ACTION is test, battery, replace, clean,
+    inspect or note. The event is checked against the records first (device
+    exists and is in service, date not in the future, result given for a
+    test), then appended without changing a byte of the file's existing text.
+    To replace an alarm and add its successor in one step, use `recordkit replace`.
+
+    Examples:  recordkit log tansy-house/flat-1/landing-smoke test --result pass --by tenant
+               recordkit log --unit tansy-house/flat-1 test --result pass --date '2026-12-01 10:30'"""
+    from ..intake import IntakeError, unit_devices
+    from ..logbook import NewEvent
+    from ..model import Action, Result
+
+    day, clock = split_when(when)
+    if unit_uid:
+        if len(words) != 1:
+            raise click.UsageError("with --unit give only the ACTION, e.g. --unit tansy-house/flat-1 test")
+        action_word = words[0]
+    elif len(words) == 2:
+        action_word = words[1]
+    else:
+        raise click.UsageError("give DEVICE ACTION (or --unit PROPERTY/UNIT ACTION)")
+    try:
+        action = Action(action_word)
+    except ValueError:
+        raise click.BadParameter(f"{action_word!r}; choose from {', '.join(a.value for a in Action)}",
+                                 param_hint="ACTION") from None
+    loaded = load_or_exit(records_dir, today(), "Not written: fix the records first.")
+    try:
+        devices = unit_devices(loaded, unit_uid, day) if unit_uid else [words[0]]
+    except IntakeError as exc:
+        raise click.UsageError(str(exc)) from None
+    if not devices:
+        raise click.UsageError(f"no device in service in '{unit_uid}' on {day}")
+    events = [NewEvent(day, uid, action, Result(result) if result else None, by, note, when=clock)
+              for uid in devices]
+    refuse_problems(loaded, events, today())
+    write_or_exit(records_dir, events, log_file)
+    reloaded = load(records_dir, today())
+    findings = [f for f in evaluate(reloaded.portfolio, reloaded.policy, today()) if f.device in devices]
+    for event in events:
+        click.echo(f"  {event.date} {event.device}: {event.action}"
+                   + (f" {event.result}" if event.result else "") + (f" by {event.by}" if event.by else ""))
+        nxt = sorted((f for f in findings if f.device == event.device), key=lambda f: f.due or date.min)
+        if nxt:
+            click.echo("    next: " + "; ".join(f"{f.task} {f.due or 'now'} ({f.state.word})" for f in nxt))
+
+
+@command("import")
+@click.argument("csv_file", type=click.Path(exists=True, dir_okay=False, path_type=Path))
+@records_option
+@click.option("--dayfirst", is_flag=True, help="Read 01/12/2026 as 1 December (default: as January 12).")
+@click.option("--skip-bad", is_flag=True, help="Import the good rows even when some rows are bad.")
+@click.option("--dry-run", is_flag=True, help="Show what would be added; write nothing.")
+@file_option
+def import_command(csv_file: Path, records_dir: Path, dayfirst, skip_bad, dry_run, log_file) -> None:
+    """Import events from a spreadsheet's CSV (columns: date, device, action, result, by, note).
+
+    Header names are matched ignoring case. Dates may be ISO (2026-12-01) or as
+    a spreadsheet writes them (MM/DD/YYYY, or DD/MM/YYYY with --dayfirst). Each
+    bad row is reported as file.csv:row: message, and nothing is written when
+    any row is bad unless --skip-bad. Rows already in the records are skipped,
+    so importing the same sheet twice adds nothing."""
+    from ..intake import IntakeError, read_csv
+
+    loaded = load_or_exit(records_dir, today(), "Not imported: fix the records first.")
+    try:
+        sheet = read_csv(csv_file, loaded, today(), dayfirst)
+    except IntakeError as exc:
+        click.echo(str(exc), err=True)
+        sys.exit(EXIT_ERRORS)
+    for problem in sheet.problems:
+        click.echo(problem, err=True)
+    summary = (f"{len(sheet.events)} new event(s), {sheet.duplicates} already recorded, "
+               f"{len(sheet.bad_rows)} bad row(s)")
+    if sheet.problems and not (skip_bad and sheet.bad_rows):
+        click.echo(f"Nothing imported: {summary}. Fix the rows (or use --skip-bad).", err=True)
+        sys.exit(EXIT_ERRORS)
+    events = [event for event, _ in sheet.events]
+    if dry_run:
+        for event in events:
+            click.echo(f"  would add: - {event.as_yaml()}")
+        click.echo(f"Dry run: {summary}; nothing written.")
+        return
+    write_or_exit(records_dir, events, log_file)
+    click.echo(f"Imported: {summary}.")
+
+
+@command("export")
+@records_option
+@as_of_option
+@format_option("csv", "json", help_text="csv for spreadsheets, json for scripts.")
+@click.option("--table", type=click.Choice(["devices", "events"]), default="devices", show_default=True,
+              help="For CSV: devices in service with their next tasks, or every event (the import's columns).")
+@out_option("Write here (default: stdout).")
+def export_command(records_dir: Path, as_of, fmt, table, out) -> None:
+    """Export devices with their next tasks, and events, as CSV or JSON."""
+    import csv
+    import io
+    import json
+
+    from ..exports import DEVICE_COLUMNS, device_rows, export_json
+    from ..intake import events_csv_rows
+
+    day = as_of_day(as_of)
+    loaded = load_or_exit(records_dir, day)
+    findings = evaluate(loaded.portfolio, loaded.policy, day)
+    if fmt == "json":
+        text = json.dumps(export_json(loaded.portfolio, findings, day), indent=1, ensure_ascii=False) + "\n"
+    else:
+        buffer = io.StringIO()
+        writer = csv.writer(buffer, lineterminator="\n")
+        if table == "events":
+            writer.writerows(events_csv_rows(loaded.portfolio))
+        else:
+            writer.writerow(DEVICE_COLUMNS)
+            writer.writerows([row[c] for c in DEVICE_COLUMNS] for row in device_rows(loaded.portfolio, findings, day))
+        text = buffer.getvalue()
+    emit(text, out)
+
+
+@command("hear")
+@click.argument("wav_file", type=click.Path(exists=True, dir_okay=False, path_type=Path))
+@records_option
+@click.option("--device", "device_id", metavar="PROPERTY/UNIT/DEVICE",
+              help="The alarm that was tested (or the listening node whose clip this is).")
+@click.option("--log", "log_it", is_flag=True, help="Append a test (or, for a node, heard) event with the verdict "
+              "and keep the recording under RECORDS/evidence/. Needs --device.")
+@click.option("--calibration-db", type=float, help="Add this to dBFS to estimate dBA (from a meter reading "
+              "of a known sound with the same phone or node).")
+@date_option("When it was recorded (default: now).")
+@format_option("text", "json")
+@file_option
+def hear(wav_file: Path, records_dir: Path, device_id, log_it, calibration_db, when, fmt, log_file) -> None:
+    """Hear an alarm test in a recording: the tone, its on/off pattern and its level.
+
+    Reports the dominant frequency (about 3 kHz for most smoke alarms, 520 Hz for
+    low-frequency alarms), whether the sound follows temporal-3 (smoke) or
+    temporal-4 (CO) with the timing errors, the level in dBFS, and a verdict.
+    A recording shows the horn sounds; it does not prove the sensor sees smoke."""
+    from ..acoustics import ALARM_DBA_AT_REFERENCE
+    from ..audio import AudioError, hear_file
+
+    if log_it and not device_id:
+        raise click.UsageError("--log needs --device")
+    try:
+        hearing = hear_file(wav_file, calibration_db)
+    except AudioError as exc:
+        click.echo(str(exc), err=True)
+        sys.exit(EXIT_ERRORS)
+    if fmt == "json":
+        print_json({"file": str(wav_file), **hearing.as_json()})
+    else:
+        click.echo(f"{wav_file}: {hearing.verdict}")
+        tone = f"{hearing.tone_hz:.0f} Hz ({hearing.band})" if hearing.tone_hz else "none"
+        click.echo(f"  tone {tone}; pattern {hearing.pattern}; {len(hearing.pulses)} sound(s) in "
+                   f"{hearing.duration_s:.1f} s")
+        if hearing.timing_errors_ms:
+            click.echo("  timing error (mean, ms): " + ", ".join(f"{k} {v:.0f}" for k, v in
+                                                                 hearing.timing_errors_ms.items())
+                       + "  (tolerance about ±10 %, from memory)")
+        if hearing.level_dbfs is not None:
+            click.echo(f"  level {hearing.level_dbfs:.1f} dBFS" + (" (clipped)" if hearing.clipped else ""))
+        if hearing.estimated_dba is not None:
+            click.echo(f"  about {hearing.estimated_dba:.0f} dBA at the microphone (a listed alarm gives "
+                       f"{ALARM_DBA_AT_REFERENCE:.0f} dBA at 3 m, UL 217)")
+    if log_it:
+        _log_hearing(hearing, wav_file, device_id, when or now(), records_dir, log_file)
+
+
+def _log_hearing(hearing, recording: Path, device_id: str, when: datetime, records_dir: Path, log_file) -> None:
+    from ..evidence import keep
+    from ..logbook import NewEvent
+    from ..model import Action, Kind, Result
+
+    loaded = load_or_exit(records_dir, today(), "Not written: fix the records first.")
+    located = loaded.portfolio.devices.get(device_id)
+    is_node = located is not None and located.device.kind is Kind.LISTENING_NODE
+    clock = when.time().replace(microsecond=0)
+    if is_node:
+        event = NewEvent(when.date(), device_id, Action.HEARD, None, "recordkit hear", hearing.verdict, "", clock)
+    else:
+        event = NewEvent(when.date(), device_id, Action.TEST, Result.PASS if hearing.alarm_heard else Result.FAIL,
+                         "recordkit hear", hearing.verdict, "", clock)
+    refuse_problems(loaded, [event], today())
+    reference = keep(records_dir, recording)
+    event = NewEvent(event.date, event.device, event.action, event.result, event.by, event.note, reference, clock)
+    write_or_exit(records_dir, [event], log_file)
+    click.echo(f"  logged {event.action}" + (f" {event.result}" if event.result else "") +
+               f" for {device_id}; recording kept as {reference}")
