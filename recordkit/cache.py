@@ -1,7 +1,7 @@
 """A parse cache for record files, so an edit to one file re-parses only that file.
 
 What the loader made of each file is kept as JSON (never pickle: a cache is
-data, and loading it must not run code) under `<records>/.cache/`, keyed by the
+data, and loading it must not run code) under `<records>/.recordkit/cache/`, keyed by the
 file's path, size, modification time and a hash of its content. An entry is
 used only when all of them and recordkit's version match; anything else (a
 missing, stale or corrupt entry) falls back to a normal parse. Deleting the
@@ -25,9 +25,10 @@ from typing import Any, Callable, Union, get_args, get_origin, get_type_hints
 from . import __version__
 from . import model as m
 from .errors import Source
+from .logbook import ensure_work_dir
 
-CACHE_DIR = ".cache"
-FORMAT = 5
+CACHE_DIR = ".recordkit/cache"  # inside the tool's own hidden folder (see logbook.WORK_DIR)
+FORMAT = 6  # 6: devices carry `replaces`
 CLEAN_FILE = "clean.json"
 RACY_SECONDS = 2.0
 
@@ -139,6 +140,7 @@ def _checksum(text: str) -> str:
 
 class ParseCache:
     def __init__(self, records_dir: Path, enabled: bool = True):
+        self.records_dir = records_dir
         self.folder = records_dir / CACHE_DIR
         self.enabled = enabled
         self.hits = self.misses = 0
@@ -216,10 +218,8 @@ class ParseCache:
         if not self.enabled:
             return
         try:
+            ensure_work_dir(self.records_dir)
             self.folder.mkdir(exist_ok=True)
-            ignore = self.folder / ".gitignore"
-            if not ignore.exists():
-                ignore.write_text("# recordkit's parse cache: safe to delete, never commit\n*\n")
             temp = target.with_suffix(f".{os.getpid()}.tmp")
             text = json.dumps(data, separators=(",", ":"))
             temp.write_text(f"{_checksum(text)}\n{text}", encoding="utf-8")

@@ -102,6 +102,12 @@ def interconnected_where_required(unit: m.Unit, devices: list[m.Device]) -> Iter
                                 "interconnected alarms")
 
 
+def rooms_recorded(unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
+    if not unit.rooms:
+        yield m.Kind.SMOKE, ("no rooms recorded, so coverage cannot be judged: add the unit's rooms "
+                             "(recordkit add room)")
+
+
 def _co_reason(unit: m.Unit) -> str:
     reasons = [f"a fuel-burning appliance in {r.name}" for r in unit.rooms if r.fuel_burning]
     if unit.attached_garage:
@@ -110,6 +116,7 @@ def _co_reason(unit: m.Unit) -> str:
 
 
 COVERAGE_CHECKS: dict[str, Callable[[m.Unit, list[m.Device]], Iterator[Gap]]] = {
+    "cov_rooms_recorded": rooms_recorded,
     "cov_smoke_bedroom": smoke_in_each_bedroom,
     "cov_smoke_outside_sleeping": smoke_outside_sleeping,
     "cov_smoke_every_level": smoke_on_every_level,

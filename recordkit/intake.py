@@ -62,7 +62,7 @@ def write_events(records_dir: Path, events: list[NewEvent], named: str | None) -
     for event in events:
         by_file.setdefault(target_file(records_dir, named, event.date), []).append(event)
     for path, batch in by_file.items():
-        append_events(path, batch)
+        append_events(path, batch, records_dir)
     return {path: len(batch) for path, batch in by_file.items()}
 
 

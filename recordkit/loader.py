@@ -69,7 +69,7 @@ def record_files(root: Path, problems: Problems) -> list[Path]:
 def load_records(root: str | Path, as_of: date, cache: bool = True) -> Loaded:
     """Load and validate every record under `root` as of a date (events after it are refused).
 
-    With `cache`, parsed files are kept under `root/.cache/` and reused while unchanged. Afterwards the
+    With `cache`, parsed files are kept under `root/.recordkit/cache/` and reused while unchanged. Afterwards the
     process's objects are frozen out of the cycle collector (see `_collector_paused`)."""
     with _collector_paused():
         return _load(Path(root), as_of, cache)
@@ -144,6 +144,18 @@ def _load(root: Path, as_of: date, cache: bool) -> Loaded:
         parse_cache.mark_clean(fileset, max(e.date for e in portfolio.events))
     last = datetime.fromtimestamp(newest, timezone.utc) if newest else None
     return Loaded(str(root), portfolio, policy, problems.sorted(), [str(p) for p in paths], last)
+
+
+def file_problems(text: str, path: str) -> list[Problem]:
+    """The problems one record file's text has on its own (fields, ids, rooms), as the loader finds them:
+    for checking an edit before it is written. Events are not checked against the other files."""
+    problems = Problems()
+    tree = read_yaml(text.encode("utf-8"), path, problems)
+    if tree is not None:
+        builder = _Builder(problems)
+        builder.add_file(tree, path)
+        builder.finish(date.max, check_events=False)
+    return problems.sorted()
 
 
 class _Builder:
@@ -250,15 +262,34 @@ class _Builder:
         uid = f.ident()
         f.what = f"unit '{uid}'"
         name = f.text("name", default=uid)
-        rooms = self._unique([self._room(item, path, ln) for item, ln in f.items("rooms", required=True)], "room")
+        # rooms may be added later (`recordkit add room`); a unit without them is a coverage finding
+        rooms = self._unique([self._room(item, path, ln) for item, ln in f.items("rooms")], "room")
         room_ids = {r.id for r in rooms}
         devices = self._unique(
             [self._device(item, path, ln, f"{pid}/{uid}", room_ids) for item, ln in f.items("devices")], "device")
+        self._check_replaces(devices)
         unit = m.Unit(uid, f"{pid}/{uid}", name, f.source(), tuple(rooms), tuple(devices),
                       attached_garage=f.flag("attached_garage"),
                       interconnect_required=f.flag("interconnect_required"))
         f.finish()
         return unit if uid else None
+
+    def _check_replaces(self, devices: list[m.Device]) -> None:
+        """`replaces:` names another device of the same unit, and no device is replaced twice."""
+        ids = {d.id for d in devices}
+        by_old: dict[str, m.Device] = {}
+        for device in devices:
+            old = device.replaces
+            if not old:
+                continue
+            if old == device.id or old not in ids:
+                self.problems.add(device.source, f"device '{device.id}': replaces '{old}', which is not "
+                                  "another device of this unit" + _suggest(old, ids - {device.id}))
+            elif old in by_old:
+                self.problems.add(device.source, f"device '{device.id}': '{old}' is already replaced by "
+                                  f"'{by_old[old].id}'")
+            else:
+                by_old[old] = device
 
     def _room(self, tree: Any, path: str, line: int) -> m.Room | None:
         f = Fields(tree, path, self.problems, "room", line)
@@ -319,7 +350,7 @@ class _Builder:
             installed or date.min, f.source(), manufactured=manufactured,
             manufactured_text=manufactured_text, sensor=sensor,
             life_years=life, removed=removed, location=f.text("location"), note=f.text("note"),
-            interconnected=f.flag("interconnected"), listens_to=tuple(x for x in listens if x),
+            interconnected=f.flag("interconnected"), replaces=f.text("replaces"), listens_to=tuple(x for x in listens if x),
             threshold_dba=threshold, hold_threshold=hold_threshold, **circuit)
         f.finish()
         return device if did and kind and installed else None

@@ -18,7 +18,7 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 from datetime import date, time
 from pathlib import Path
-from typing import Iterator
+from typing import Callable, Iterator
 
 from . import model as m
 from .errors import Problems
@@ -78,14 +78,38 @@ def default_log_file(records_dir: Path, when: date) -> Path:
     return records_dir / "log" / f"{when.year}.yaml"
 
 
+WORK_DIR = ".recordkit"  # the tool's own files in a records folder (cache/, locks/); hidden, so never read
+
+
+def ensure_work_dir(records_dir: Path) -> Path:
+    """The records folder's `.recordkit/`, made with a .gitignore of its own so it is never committed."""
+    work = records_dir / WORK_DIR
+    work.mkdir(exist_ok=True)
+    ignore = work / ".gitignore"
+    if not ignore.exists():
+        ignore.write_text("# recordkit's cache and lock files: safe to delete when no command runs; never commit\n*\n")
+    return work
+
+
+def lock_path(path: Path, records_dir: Path | None = None) -> Path:
+    """The lock file for a data file: in the records folder's `.recordkit/locks/`, else beside it."""
+    if records_dir is None:
+        return path.with_name(path.name + ".lock")
+    relative = path.resolve().relative_to(records_dir.resolve())
+    return records_dir / WORK_DIR / "locks" / (str(relative).replace(os.sep, "%") + ".lock")
+
+
 @contextmanager
-def locked(path: Path) -> Iterator[None]:
-    """Hold an exclusive lock on PATH.lock (released by the kernel if the process dies)."""
-    lock_path = path.with_name(path.name + ".lock")
+def locked(path: Path, records_dir: Path | None = None) -> Iterator[None]:
+    """Hold an exclusive lock on the data file's lock file (released by the kernel if the process dies)."""
+    lock = lock_path(path, records_dir)
     try:
-        handle = open(lock_path, "a")
+        if records_dir is not None:
+            ensure_work_dir(records_dir)
+        lock.parent.mkdir(parents=True, exist_ok=True)
+        handle = open(lock, "a")
     except OSError as exc:
-        raise LogWriteError(f"{path}: cannot open the lock file {lock_path.name} ({exc.strerror}; a read-only "
+        raise LogWriteError(f"{path}: cannot open the lock file {lock} ({exc.strerror}; a read-only "
                             "folder?); nothing written") from None
     with handle:
         fcntl.flock(handle, fcntl.LOCK_EX)
@@ -95,19 +119,23 @@ def locked(path: Path) -> Iterator[None]:
             fcntl.flock(handle, fcntl.LOCK_UN)
 
 
-def append_events(path: Path, events: list[NewEvent]) -> None:
-    """Append events to a log file (created if missing). Raises LogWriteError or MaybeWritten."""
-    if not events:
-        return
+def update_file(path: Path, change: Callable[[bytes | None], bytes], records_dir: Path | None = None) -> None:
+    """Rewrite a record file safely: one writer at a time, the new text from `change(old bytes or None)`
+    (which raises LogWriteError to refuse), temp file, fsync, atomic rename, folder fsync."""
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
         raise LogWriteError(f"{path.parent}: cannot create the folder ({exc.strerror}); nothing written") from None
-    with locked(path):
+    with locked(path, records_dir):
         _sweep_temp_files(path)
         old = path.read_bytes() if path.exists() else None
-        new = _appended(old, path, events)
-        _replace_atomically(path, new)
+        _replace_atomically(path, change(old))
+
+
+def append_events(path: Path, events: list[NewEvent], records_dir: Path | None = None) -> None:
+    """Append events to a log file (created if missing). Raises LogWriteError or MaybeWritten."""
+    if events:
+        update_file(path, lambda old: _appended(old, path, events), records_dir)
 
 
 def _appended(old: bytes | None, path: Path, events: list[NewEvent]) -> bytes:

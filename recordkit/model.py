@@ -137,6 +137,7 @@ class Device:
     location: str = ""
     note: str = ""
     interconnected: bool = False
+    replaces: str = ""   # the id of the device (same unit) this one took the place of
     # listening nodes only: what they listen to and their circuit's design values
     listens_to: tuple[Listen, ...] = ()
     threshold_dba: float | None = None
@@ -247,6 +248,12 @@ class Portfolio:
             if removed and (uid not in retired or removed < retired[uid]):
                 retired[uid] = removed
         return retired
+
+    @cached_property
+    def successors(self) -> dict[str, str]:
+        """Device uid -> the uid of the device recorded as replacing it (`replaces:`)."""
+        return {f"{d.uid.rsplit('/', 1)[0]}/{d.replaces}": d.uid
+                for p in self.properties for u in p.units for d in u.devices if d.replaces}
 
     def retired_on(self, uid: str) -> date | None:
         """The day a device left service: its `removed:` date or its first `replace` event."""

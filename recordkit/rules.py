@@ -137,8 +137,11 @@ DEFAULT_RULES: tuple[Rule, ...] = (
 _IRC_SMOKE = "IRC R314.3; NFPA 72 §29.5.1"
 _IRC_CO = "IRC R315; NFPA 720 §9.4.1.1 (now NFPA 72 ch. 17/29) - from memory"
 _ENGLAND = "Smoke and Carbon Monoxide Alarm (Amendment) Regulations 2022 (England)"
+_ROOMS_RECORDED = Rule("cov_rooms_recorded", "The unit's rooms are recorded, so placement can be judged", "required",
+                       "common practice: no placement rule can be checked without the rooms")
 COVERAGE_SETS: dict[str, tuple[Rule, ...]] = {
     "us-irc": (
+        _ROOMS_RECORDED,
         Rule("cov_smoke_bedroom", "A smoke alarm in each sleeping room", "required", _IRC_SMOKE),
         Rule("cov_smoke_outside_sleeping", "A smoke alarm outside each sleeping area, near the bedrooms",
              "required", _IRC_SMOKE),
@@ -156,6 +159,7 @@ COVERAGE_SETS: dict[str, tuple[Rule, ...]] = {
              "IRC R314.4; NFPA 72 §29.8.2"),
     ),
     "england-2022": (
+        _ROOMS_RECORDED,
         Rule("cov_smoke_every_level", "A smoke alarm on every storey used as living accommodation", "required",
              _ENGLAND),
         Rule("cov_co_fuel_room", "A CO alarm in any room with a fixed combustion appliance (not gas cookers)",
@@ -214,6 +218,9 @@ POLICY_KEYS = ("policy", "coverage", "replacement_costs")
 COST_KINDS = ("smoke", "co", "smoke_co", "heat", "leak", "listening_node")
 
 
+_EXAMPLES = {"coverage": "england-2022", "replacement_costs": "{currency: GBP, smoke: 18}"}
+
+
 def apply_policy_file(tree: Any, path: str, problems: Problems, policy: Policy | None = None) -> Policy:
     """Apply a parsed `policy.yaml` (a located YAML tree) to the defaults.
 
@@ -242,6 +249,10 @@ def apply_policy_file(tree: Any, path: str, problems: Problems, policy: Policy |
     names = {rule.name for rule in policy if not rule.name.startswith("cov_")}
     for name, body in overrides.items():
         where = Source(path, overrides.key_lines[name])
+        if name in POLICY_KEYS:
+            problems.add(where, f"'{name}:' belongs at the top level of policy.yaml, not under 'policy:' "
+                         f"(write it with no indent, e.g. '{name}: {_EXAMPLES.get(name, '...')}')")
+            continue
         if name not in names:
             problems.add(where, f"unknown rule {name!r}; rules: {', '.join(sorted(names))}")
             continue

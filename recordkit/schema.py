@@ -49,7 +49,7 @@ def record_schema() -> dict:
         "id": ID, "kind": _enum(m.Kind), "room": TEXT, "sensor": _enum(m.Sensor), "power": _enum(m.Power),
         "manufactured": {"oneOf": [DAY_OR_MONTH, {"const": "unknown"}]}, "installed": DAY_OR_MONTH,
         "life_years": {"type": "integer", "minimum": 1}, "removed": DAY, "location": TEXT, "note": TEXT,
-        "interconnected": FLAG, "listens_to": {"type": "array", "items": listen},
+        "interconnected": FLAG, "replaces": ID, "listens_to": {"type": "array", "items": listen},
         "threshold_dba": NON_NEGATIVE, **{key: CIRCUIT_VALUE for key in CIRCUIT_KEYS},
         "hold_threshold": {"type": "number", "minimum": 0.01, "exclusiveMaximum": 1},
     }, ["id", "kind", "room", "power", "installed"], "an alarm or listening node")
@@ -63,7 +63,7 @@ def record_schema() -> dict:
     ]
     unit = _object({"id": ID, "name": TEXT, "attached_garage": FLAG, "interconnect_required": FLAG,
                     "rooms": {"type": "array", "items": room}, "devices": {"type": "array", "items": device}},
-                   ["id", "rooms"])
+                   ["id"])
     prop = _object({"id": ID, "name": TEXT, "address": TEXT, "units": {"type": "array", "items": unit}},
                    ["id", "name", "units"])
     event = _object({"date": DAY_TIME, "device": {"type": "string", "description": "property/unit/device"},

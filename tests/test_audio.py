@@ -170,7 +170,7 @@ def test_huge_file_is_refused(tmp_path, monkeypatch):
 @needs_sox
 def test_hear_log_appends_a_test_with_evidence_and_the_unit_page_shows_it(tmp_path):
     records = tmp_path / "records"
-    shutil.copytree(DEMO_RECORDS, records, ignore=shutil.ignore_patterns(".cache"))
+    shutil.copytree(DEMO_RECORDS, records, ignore=shutil.ignore_patterns(".recordkit"))
     recording = sox_temporal_3(tmp_path)
     device = "tansy-house/flat-2/landing-smokeco"
     result = run_cli("hear", str(recording), "--device", device, "--log", "--records", str(records),

@@ -22,11 +22,11 @@ def same(a, b):
 
 def test_warm_load_equals_cold_load(tmp_path):
     folder = tmp_path / "records"
-    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".cache"))
+    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".recordkit"))
     cold = load_records(folder, AS_OF, cache=False)
     first = load_records(folder, AS_OF)     # fills the cache
     second = load_records(folder, AS_OF)    # reads it
-    assert (folder / ".cache").is_dir() and list((folder / ".cache").glob("*.json"))
+    assert (folder / ".recordkit").is_dir() and list((folder / ".recordkit" / "cache").glob("*.json"))
     same(cold, first)
     same(cold, second)
 
@@ -60,7 +60,7 @@ def apply_edit(folder, name, edit):
 @given(edits=EDITS)
 def test_cache_follows_random_edits(tmp_path_factory, edits):
     folder = tmp_path_factory.mktemp("edits") / "records"
-    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".cache"))
+    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".recordkit"))
     load_records(folder, AS_OF)  # a warm cache of the original files
     for name, edit in edits:
         apply_edit(folder, name, edit)
@@ -69,10 +69,10 @@ def test_cache_follows_random_edits(tmp_path_factory, edits):
 
 def test_deleting_or_corrupting_the_cache_is_harmless(tmp_path):
     folder = tmp_path / "records"
-    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".cache"))
+    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".recordkit"))
     cold = load_records(folder, AS_OF, cache=False)
     load_records(folder, AS_OF)
-    entries = sorted((folder / ".cache").glob("*.json"))
+    entries = sorted((folder / ".recordkit" / "cache").glob("*.json"))
     entries[0].write_text("{not json")
     entries[1].write_bytes(b"\x00\xff" * 50)
     entries[2].write_text('{"format": 2, "payload": "something else"}')
@@ -82,13 +82,13 @@ def test_deleting_or_corrupting_the_cache_is_harmless(tmp_path):
         entry.write_text(text.replace('"level', '"levels', 1).replace("2025-", "2024-", 1).replace(",3,", ",4,", 1))
     same(cold, load_records(folder, AS_OF))
     assert load_records(folder, AS_OF).problems == cold.problems
-    shutil.rmtree(folder / ".cache")
+    shutil.rmtree(folder / ".recordkit")
     same(cold, load_records(folder, AS_OF))
 
 
 def test_a_cache_from_another_version_is_ignored(tmp_path, monkeypatch):
     folder = tmp_path / "records"
-    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".cache"))
+    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".recordkit"))
     load_records(folder, AS_OF)
     monkeypatch.setattr("recordkit.cache.__version__", "0.0.0-other")
     from recordkit.cache import ParseCache
@@ -111,7 +111,7 @@ def test_csv_event_logs_load_like_yaml_ones(tmp_path):
 
 def test_a_bad_csv_log_row_names_file_and_row(tmp_path):
     folder = tmp_path / "records"
-    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".cache"))
+    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".recordkit"))
     (folder / "log" / "old.csv").write_text("date,device,action,result\n2020-01-01,x/y/z,clean,\n"
                                             "2020-13-01,bramble-cottage/home/hall-smoke,test,pass\n")
     messages = [str(p) for p in load_records(folder, date(2026, 12, 1)).problems]

@@ -71,7 +71,7 @@ def test_log_a_walk_round_for_every_device_in_service(records):
 ])
 def test_log_refuses_bad_events_and_writes_nothing(records, args, words):
     folder = small_records(records)
-    records_files = lambda: sorted(p.name for p in folder.rglob("*") if ".cache" not in p.parts)  # noqa: E731
+    records_files = lambda: sorted(p.name for p in folder.rglob("*") if ".recordkit" not in p.parts)  # noqa: E731
     before = records_files()
     result = run_cli("log", *args, "--records", str(folder))
     assert result.returncode == 1 and words in result.stderr, result.stderr

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import click
 
-from . import events, report, site, start
+from . import entries, events, report, site, start
 from .options import Group
 
 
@@ -19,7 +19,7 @@ def main() -> None:
     record-keeping aid, not an inspection."""
 
 
-for module in (start, report, events, site):
+for module in (start, entries, report, events, site):
     module.register(main)
 
 

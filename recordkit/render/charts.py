@@ -114,6 +114,16 @@ def month_cells(portfolio: m.Portfolio, device: m.Device, as_of: date) -> list[t
     return cells
 
 
+_CELL_PRIORITY = ("fail", "pass", "missed", "none")  # what a month shows when devices of one position differ
+
+
+def position_cells(portfolio: m.Portfolio, devices: list[m.Device], as_of: date) -> list[tuple[date, str]]:
+    """The last 12 months of one position (a device and those it replaced), so a replacement does not
+    break the row: each month shows a failure by any of them, else a pass, else a miss."""
+    per_device = [month_cells(portfolio, device, as_of) for device in devices]
+    return [(cells[0][0], min((c[1] for c in cells), key=_CELL_PRIORITY.index)) for cells in zip(*per_device)]
+
+
 def monthly_grid_svg(rows: list[tuple[str, list[tuple[date, str]]]]) -> str:
     """One row per device, one cell per month, each cell a symbol: ✓ pass, ✗ fail, – missed."""
     name_width, cell, head = 150, 40, 22

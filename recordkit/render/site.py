@@ -24,7 +24,8 @@ from ..checks import TASK_ORDER, Finding, urgency
 from ..exports import calendar_ics
 from ..loader import Loaded
 from ..nodes import NodeReport, node_report
-from .charts import envelope_svg, forecast_svg, month_cells, replacement_forecast, monthly_grid_svg, yearly_costs
+from .charts import (envelope_svg, forecast_svg, monthly_grid_svg, position_cells, replacement_forecast,
+                     yearly_costs)
 from ..schema import record_schema
 from ..schedule import State
 from .checklist import (UnitSheet, blank_unit_html, findings_by_device, inspection_html, monthly_card_html,
@@ -225,6 +226,7 @@ class SiteBuilder:
     def _device_section(self, view: DeviceView) -> Markup:
         return Markup(self.html_env.get_template("_device.html.j2").render(
             v=view, unit=view.located.unit, views=self.views, device_anchor=device_anchor,
+            successor=self.portfolio.successors.get(view.device.uid),
             evidence_html=lambda events: Markup(self._evidence_html(events)),
             history_html=history_html, when=lambda f: when(f, self.as_of)))
 
@@ -364,13 +366,27 @@ class SiteBuilder:
     def unit_parts(self, prop: m.Property, unit: m.Unit) -> dict[str, str]:
         active, retired = self._unit_views(unit)
         rooms = [(room, [v for v in active if v.device.room == room.id]) for room in unit.rooms]
-        grid = monthly_grid_svg([(v.device.id, month_cells(self.portfolio, v.device, self.as_of)) for v in active])
+        grid = monthly_grid_svg([(self._position_name(chain), position_cells(self.portfolio, chain, self.as_of))
+                                 for chain in (self._position(unit, v.device) for v in active)])
         gaps = [f for f in self.by_device.get(unit.uid, []) if f.task == "coverage"]
         return {"rooms": self._parts.rooms_table(rooms, unit),
                 "coverage": self._parts.gaps_table(gaps, self.loaded.policy.coverage),
                 "grid": f'<div class="rk-figure">{grid}</div>',
                 "active": self._parts.sections(active, self._device_section),
                 "retired": self._parts.sections(retired, self._device_section)}
+
+    @staticmethod
+    def _position(unit: m.Unit, device: m.Device) -> list[m.Device]:
+        """A device and, through `replaces:`, the devices that held its place before it (newest first)."""
+        by_id = {d.id: d for d in unit.devices}
+        chain = [device]
+        while chain[-1].replaces in by_id and by_id[chain[-1].replaces] not in chain:
+            chain.append(by_id[chain[-1].replaces])
+        return chain
+
+    @staticmethod
+    def _position_name(chain: list[m.Device]) -> str:
+        return chain[0].id if len(chain) == 1 else f"{chain[0].id} (was {chain[1].id})"
 
     def rules(self) -> str:
         return self._render("rules.md.j2", "rules.md", rules=list(self.loaded.policy),
@@ -385,7 +401,9 @@ class SiteBuilder:
                             device=located.device.uid if located else f"{unit}/DEVICE", unit=unit)
 
     def about(self) -> str:
-        return self._render("about.md.j2", "about.md", cautions=CAUTIONS)
+        policy = self.loaded.policy
+        return self._render("about.md.j2", "about.md", cautions=CAUTIONS, coverage=policy.coverage,
+                            coverage_rules=policy.coverage_rules)
 
 
 def site_pages(loaded: Loaded, findings: list[Finding], as_of: date, directory_urls: bool = False) -> Iterator[Page]:
