@@ -220,8 +220,9 @@ def add_entry(records_dir: Path, loaded: Loaded, what: str, parent: str, data: d
     return path, placed[-1]
 
 
-def add_property(records_dir: Path, loaded: Loaded, data: dict, unit: dict, name: str | None = None) -> Path:
-    """Write a new property file (never over an existing file). Returns its path."""
+def add_property(records_dir: Path, loaded: Loaded, data: dict, unit: dict,
+                 name: str | None = None) -> tuple[Path, int]:
+    """Write a new property file (never over an existing file). Returns its path and its unit's line."""
     property_id = data["id"]
     if any(p.id == property_id for p in loaded.portfolio.properties):
         raise AddRefused(f"a property '{property_id}' exists already")
@@ -239,7 +240,7 @@ def add_property(records_dir: Path, loaded: Loaded, data: dict, unit: dict, name
         return text.encode("utf-8")
 
     update_file(path, change, records_dir)
-    return path
+    return path, text.splitlines().index("  units:") + 2
 
 
 def _known(ids: list[str]) -> str:

@@ -30,6 +30,7 @@ CSV_SUFFIX = ".csv"   # event logs kept as CSV (the import's columns), for very 
 # A listening node's circuit design values (ohms, farads, hertz), all optional.
 CIRCUIT_KEYS = ("filter_r_ohm", "filter_c_farad", "corner_hz", "hold_r_ohm", "hold_c_farad")
 RECORD_SUFFIXES = (".yaml", ".yml")
+SITE_CONFIGS = ("mkdocs.yml", "mkdocs.yaml")  # a site configuration beside the records is not a record
 
 
 @dataclass
@@ -56,6 +57,8 @@ def record_files(root: Path, problems: Problems) -> list[Path]:
         dirs[:] = sorted(d for d in dirs if not d.startswith("."))
         for name in sorted(files):
             if name.startswith(".") or not name.endswith((*RECORD_SUFFIXES, CSV_SUFFIX)):
+                continue
+            if name in SITE_CONFIGS and Path(folder) == root:
                 continue
             path = Path(folder) / name
             if not path.resolve().is_relative_to(real_root):

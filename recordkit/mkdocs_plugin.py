@@ -20,7 +20,7 @@ from mkdocs.structure.files import File, Files, InclusionLevel
 
 from .cautions import SHORT
 from .checks import evaluate
-from .loader import load_records
+from .loader import SITE_CONFIGS, load_records
 from .render.labels import ASSETS, DEFAULT_SITE_CONFIG
 from .render.site import Page, part_marker, site_pages
 from .rules import Interval, Rule
@@ -170,13 +170,12 @@ class SiteBuildError(Exception):
     The message says which."""
 
 
-CONFIG_NAMES = ("mkdocs.yml", "mkdocs.yaml")
 
 
 def find_site_config(records: Path) -> Path | None:
     """A user's mkdocs.yml: in the records folder, else beside it (the demo keeps its one there)."""
     for folder in (records, records.resolve().parent):
-        for name in CONFIG_NAMES:
+        for name in SITE_CONFIGS:
             if (folder / name).is_file():
                 return folder / name
     return None

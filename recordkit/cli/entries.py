@@ -70,15 +70,15 @@ def add_property(records_dir: Path, ident, name, address, unit_id, unit_name, fi
     loaded = load_or_exit(records_dir, today(), "Not written: fix the records first.", need_records=False)
     data = {"id": ident, "name": name, **({"address": address} if address else {})}
     try:
-        path = write_property(records_dir, loaded, data, {"id": unit_id, "name": unit_name or name}, file_name)
+        path, unit_line = write_property(records_dir, loaded, data, {"id": unit_id, "name": unit_name or name}, file_name)
     except AddRefused as exc:
         click.echo(f"Not written: {exc}", err=True)
         sys.exit(EXIT_ERRORS)
     except (LogWriteError, MaybeWritten) as exc:
         click.echo(str(exc), err=True)
         sys.exit(EXIT_ERRORS)
-    click.echo(f"Added property '{ident}' at {path}:2 (unit '{unit_id}' at line "
-               f"{3 + len(data) + 1}); add its rooms with `recordkit add room --unit {ident}/{unit_id} ...`")
+    click.echo(f"Added property '{ident}' at {path}:2 (unit '{unit_id}' at line {unit_line}); add its rooms "
+               f"with `recordkit add room --unit {ident}/{unit_id} ...`")
 
 
 @add.command("unit")
