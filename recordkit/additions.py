@@ -18,8 +18,8 @@ import yaml
 
 from .errors import Problems
 from .loader import Loaded, file_problems
-from .logbook import LogWriteError, update_file
-from .yamltree import read_yaml
+from .logbook import update_file
+from .yamltree import plain, read_yaml
 
 LIST_OF = {"unit": "units", "room": "rooms", "device": "devices"}
 _PLAIN = re.compile(r"[a-z][a-z0-9_-]*|\d{4}-\d{2}(-\d{2})?")
@@ -157,26 +157,18 @@ def check_insertion(old: str, new: str, path: str, what: str, unit_id: str | Non
     """Refuse unless the new text reads as the old records plus exactly the new entry."""
     problems = Problems()
     before, after = read_yaml(old.encode(), path, problems), read_yaml(new.encode(), path, problems)
-    expected = _plain(before)
+    expected = plain(before)
     prop = expected.get("property") if isinstance(expected, dict) else None
     target = prop if what == "unit" else next(u for u in prop["units"] if u.get("id") == unit_id)
     key = LIST_OF[what]
-    target[key] = (target.get(key) or []) + [_plain(read_yaml(scalar_map(data).encode(), path, problems))]
-    if problems or _plain(after) != expected:
+    target[key] = (target.get(key) or []) + [plain(read_yaml(scalar_map(data).encode(), path, problems))]
+    if problems or plain(after) != expected:
         raise AddRefused(f"{path}: inserting would not give the old records plus the new {what}; nothing "
                          "written (is the file's layout unusual?)", "".join(entry_lines(data, 0)))
 
 
 def scalar_map(data: dict) -> str:
     return "".join(f"{k}: {scalar(v)}\n" for k, v in data.items())
-
-
-def _plain(value):
-    if isinstance(value, dict):
-        return {k: _plain(v) for k, v in value.items()}
-    if isinstance(value, list):
-        return [_plain(v) for v in value]
-    return value
 
 
 def target_file(records_dir: Path, shown_path: str) -> Path:

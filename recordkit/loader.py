@@ -12,7 +12,7 @@ import os
 import re
 from contextlib import contextmanager
 from dataclasses import dataclass, field
-from datetime import date, datetime, time, timezone
+from datetime import date, datetime, timezone
 from pathlib import Path
 from typing import Any
 

@@ -22,7 +22,7 @@ from typing import Callable, Iterator
 
 from . import model as m
 from .errors import Problems
-from .yamltree import YList, YMap, read_yaml
+from .yamltree import YList, YMap, plain, read_yaml
 
 
 class LogWriteError(Exception):
@@ -154,7 +154,7 @@ def _appended(old: bytes | None, path: Path, events: list[NewEvent]) -> bytes:
     # Read the result back: it must be exactly the old data plus the new events.
     check = _parse(new, path)
     expected = old_events + [e.as_data() for e in events]
-    if _plain(check.get("events")) != _plain(expected):
+    if plain(check.get("events")) != plain(expected):
         raise LogWriteError(f"{path}: appending would not give the old events plus the new ones; "
                             "nothing written (is the file's layout unusual?)")
     return new
@@ -191,14 +191,6 @@ def _dash_column(tree: YMap, data: bytes, path: Path) -> int:
         raise LogWriteError(f"{path}:{tree.key_lines['events']}: 'events:' is in flow style ([...]); "
                             "write it as a block list to append, nothing written")
     return dash
-
-
-def _plain(value):
-    if isinstance(value, dict):
-        return {k: _plain(v) for k, v in value.items()}
-    if isinstance(value, list):
-        return [_plain(v) for v in value]
-    return value
 
 
 def temp_name(path: Path) -> Path:

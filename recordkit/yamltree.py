@@ -53,6 +53,15 @@ class YList(list):
     item_lines: list
 
 
+def plain(value: Any) -> Any:
+    """A located tree as plain dicts and lists (for comparing what two texts hold)."""
+    if isinstance(value, dict):
+        return {k: plain(v) for k, v in value.items()}
+    if isinstance(value, list):
+        return [plain(v) for v in value]
+    return value
+
+
 def read_yaml(data: bytes, path: str, problems: Problems) -> Any:
     """Parse one file's bytes. Returns the located tree, or None after adding problems."""
     if len(data) > MAX_FILE_BYTES:

@@ -222,3 +222,28 @@ def test_replace_logs_adds_links_and_keeps_the_test_history_of_the_position(tmp_
     assert "#device-hall-smoke" in page.links and "#device-hall-smoke-2" in page.links
     html = (site / "properties/my-property/home.html").read_text()
     assert f"hall-smoke-2 (was hall-smoke) {month_start:%B %Y}: fail" in html  # the old failure keeps its month
+
+
+def test_init_in_a_terminal_asks_for_what_is_missing(tmp_path):
+    import os
+    import pty
+    import subprocess
+    import sys
+    import time
+
+    script = Path(sys.executable).parent / "recordkit"
+    leader, follower = pty.openpty()
+    process = subprocess.Popen([str(script), "init", "-r", str(tmp_path / "r"), "--rules", "us-irc"],
+                               stdin=follower, stdout=follower, stderr=follower, close_fds=True)
+    os.close(follower)
+    seen = b""
+    for answer in (b"birch-house\n", b"Birch House\n", b"9 Birch Lane\n"):
+        deadline = time.monotonic() + 30
+        while not seen.rstrip().endswith(b":") and time.monotonic() < deadline:
+            seen += os.read(leader, 1024)
+        os.write(leader, answer)
+        seen = b""
+    assert process.wait(timeout=60) == 0
+    os.close(leader)
+    text = (tmp_path / "r" / "birch-house.yaml").read_text()
+    assert 'name: "Birch House"' in text and 'address: "9 Birch Lane"' in text and "CHANGE ME)" not in text

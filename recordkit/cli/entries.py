@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import sys
+from contextlib import contextmanager
 from pathlib import Path
 
 import click
@@ -23,23 +24,32 @@ def given(data: dict) -> dict:
     return {k: v for k, v in data.items() if not (v is None or v is False or (isinstance(v, (str, tuple)) and not v))}
 
 
-def write_entry(records_dir: Path, what: str, parent: str, data: dict, need_records: bool = True) -> None:
-    from ..additions import AddRefused, add_entry
+@contextmanager
+def written_or_exit(what: str):
+    """Exit 1 with the reason (and the lines to add by hand, when there are some) if a write is refused."""
+    from ..additions import AddRefused
     from ..logbook import LogWriteError, MaybeWritten
 
-    loaded = load_or_exit(records_dir, today(), "Not written: fix the records first.", need_records)
-    data = given(data)
     try:
-        path, line = add_entry(records_dir, loaded, what, parent, data)
+        yield
     except AddRefused as exc:
         click.echo(f"Not written: {exc}", err=True)
         if exc.lines:
-            click.echo(f"Add these lines by hand (under the {what}'s list, indented like its siblings):\n"
+            click.echo(f"Add these lines by hand (in the {what}'s list, indented like its siblings):\n"
                        + exc.lines, err=True)
         sys.exit(EXIT_ERRORS)
     except (LogWriteError, MaybeWritten) as exc:
         click.echo(str(exc), err=True)
         sys.exit(EXIT_ERRORS)
+
+
+def write_entry(records_dir: Path, what: str, parent: str, data: dict, need_records: bool = True) -> None:
+    from ..additions import add_entry
+
+    loaded = load_or_exit(records_dir, today(), "Not written: fix the records first.", need_records)
+    data = given(data)
+    with written_or_exit(what):
+        path, line = add_entry(records_dir, loaded, what, parent, data)
     click.echo(f"Added {what} '{data['id']}' at {path}:{line}")
 
 
@@ -64,19 +74,13 @@ def add() -> None:
               "(default: ID.yaml).")
 def add_property(records_dir: Path, ident, name, address, unit_id, unit_name, file_name) -> None:
     """Add a property (with its first unit) as a new file in the records folder."""
-    from ..additions import AddRefused, add_property as write_property
-    from ..logbook import LogWriteError, MaybeWritten
+    from ..additions import add_property as write_property
 
     loaded = load_or_exit(records_dir, today(), "Not written: fix the records first.", need_records=False)
     data = {"id": ident, "name": name, **({"address": address} if address else {})}
-    try:
-        path, unit_line = write_property(records_dir, loaded, data, {"id": unit_id, "name": unit_name or name}, file_name)
-    except AddRefused as exc:
-        click.echo(f"Not written: {exc}", err=True)
-        sys.exit(EXIT_ERRORS)
-    except (LogWriteError, MaybeWritten) as exc:
-        click.echo(str(exc), err=True)
-        sys.exit(EXIT_ERRORS)
+    with written_or_exit("property"):
+        path, unit_line = write_property(records_dir, loaded, data, {"id": unit_id, "name": unit_name or name},
+                                         file_name)
     click.echo(f"Added property '{ident}' at {path}:2 (unit '{unit_id}' at line {unit_line}); add its rooms "
                f"with `recordkit add room --unit {ident}/{unit_id} ...`")
 
@@ -165,8 +169,8 @@ def replace(old_id, new_id, records_dir: Path, kind, room, power, sensor, manufa
     test history continuous.
 
     Example:  recordkit replace tansy-house/flat-1/bed-2-smoke --new-id bed-2-smoke-b --manufactured 2026-10"""
-    from ..additions import AddRefused, add_entry
-    from ..logbook import LogWriteError, MaybeWritten, NewEvent
+    from ..additions import add_entry
+    from ..logbook import NewEvent
 
     day, clock = split_when(when)
     loaded = load_or_exit(records_dir, today(), "Not written: fix the records first.")
@@ -186,14 +190,8 @@ def replace(old_id, new_id, records_dir: Path, kind, room, power, sensor, manufa
     data = given(data)
     event = NewEvent(day, old_id, m.Action.REPLACE, None, by, note or f"replaced by {new_id}", when=clock)
     refuse_problems(loaded, [event], today())
-    try:
+    with written_or_exit("device"):
         path, line = add_entry(records_dir, loaded, "device", located.unit.uid, data)
-    except AddRefused as exc:
-        click.echo(f"Not written: {exc}", err=True)
-        sys.exit(EXIT_ERRORS)
-    except (LogWriteError, MaybeWritten) as exc:
-        click.echo(str(exc), err=True)
-        sys.exit(EXIT_ERRORS)
     click.echo(f"Added device '{new_id}' at {path}:{line} (replaces '{old.id}')")
     try:
         write_or_exit(records_dir, [event], None)

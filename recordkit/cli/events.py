@@ -18,8 +18,8 @@ file_option = click.option("--file", "log_file", metavar="PATH",
 
 
 def register(main: click.Group) -> None:
-    for command in (log_command, import_command, export_command, hear):
-        main.add_command(command)
+    for command_ in (log_command, import_command, export_command, hear):
+        main.add_command(command_)
 
 
 def write_or_exit(records_dir: Path, events, log_file: str | None) -> None:

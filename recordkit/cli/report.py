@@ -18,8 +18,8 @@ MONITOR_OK, MONITOR_SOON, MONITOR_OVERDUE, MONITOR_UNREADABLE = 0, 1, 2, 3
 
 
 def register(main: click.Group) -> None:
-    for command in (check, status, rules, node_command):
-        main.add_command(command)
+    for command_ in (check, status, rules, node_command):
+        main.add_command(command_)
 
 
 @command()

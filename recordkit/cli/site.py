@@ -16,8 +16,8 @@ config_option = click.option(
 
 
 def register(main: click.Group) -> None:
-    for command in (build, serve, checklist, calendar_command):
-        main.add_command(command)
+    for command_ in (build, serve, checklist, calendar_command):
+        main.add_command(command_)
 
 
 @command()
