@@ -13,7 +13,7 @@ from datetime import date
 from typing import Callable, Iterable, Iterator
 
 from . import model as m
-from .coverage import COVERAGE_CHECKS
+from .coverage import CHECKS as COVERAGE_CHECKS
 from .errors import Source
 from .nodes import node_report
 from .rules import Interval, Policy, Rule
@@ -57,10 +57,10 @@ Check = Callable[[m.Portfolio, Policy, date], Iterable[Finding]]
 
 
 def active_devices(portfolio: m.Portfolio, as_of: date) -> Iterator[m.Located]:
-    """Devices in service on the as-of date (installed, not yet retired)."""
+    """Devices in service on the as-of date: installed on or before it, and not yet retired."""
     for uid, located in portfolio.devices.items():
         retired = portfolio.retired_on(uid)
-        if retired is None or retired > as_of:
+        if located.device.installed <= as_of and (retired is None or retired > as_of):
             yield located
 
 
@@ -102,9 +102,14 @@ def replacement_due(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iter
             continue
         due, rule, life = min(((add(device.manufactured, life), rule, life) for rule, life in options),
                               key=lambda option: option[0])
+        why = ""
+        if device.life_years and rule.name != "maker_life":
+            why = f" (the maker's {int(device.life_years)} years does not extend the {life} of rule {rule.name})"
+        elif rule.name == "maker_life" and len(options) > 1:
+            why = " (the maker's life, shorter than the code's)"
         yield _finding(located, "replace", due, as_of, rule, window,
                        f"{what} made {device.manufactured_text or device.manufactured}; "
-                       f"replace {life} after manufacture")
+                       f"replace {life} after manufacture{why}")
 
 
 # The policy life of each alarm kind when the maker's life is not recorded.
@@ -113,7 +118,9 @@ _DEFAULT_LIFE_RULE = {m.Kind.SMOKE: "smoke_life", m.Kind.HEAT: "heat_life", m.Ki
 
 
 def _lives(device: m.Device, policy: Policy) -> list[tuple[Rule, Interval]]:
-    """The service lives that apply to a device; the earliest end wins."""
+    """The service lives that apply to a device; the earliest end wins. The maker's stated life replaces
+    the policy life of CO, heat and other devices, but never lengthens a smoke alarm's: NFPA 72 §14.4.7.1
+    sets 10 years from manufacture as the most, so a smoke sensor always keeps `smoke_life` too."""
     if device.life_years:
         lives = [(policy["maker_life"], Interval(int(device.life_years), "years"))]
     elif device.kind in _DEFAULT_LIFE_RULE:
@@ -121,7 +128,7 @@ def _lives(device: m.Device, policy: Policy) -> list[tuple[Rule, Interval]]:
         lives = [(policy[name], policy.interval(name))]
     else:
         return []  # leak alarms and listening nodes: no life unless the maker gives one
-    if device.kind is m.Kind.SMOKE_CO:  # the CO element's life, and the smoke sensor's life
+    if device.kind in (m.Kind.SMOKE, m.Kind.SMOKE_CO) and all(rule.name != "smoke_life" for rule, _ in lives):
         lives.append((policy["smoke_life"], policy.interval("smoke_life")))
     return lives
 
@@ -168,8 +175,10 @@ def coverage_gaps(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterat
     for prop in portfolio.properties:
         for unit in prop.units:
             devices = [d for d in unit.devices if d.uid in in_service]
-            for rule in policy.coverage_rules:
-                for kind, reason in COVERAGE_CHECKS[rule.name](unit, devices):
+            rule_set = policy.rule_set
+            for coverage in rule_set.rules:
+                rule = coverage.rule
+                for kind, reason in COVERAGE_CHECKS[coverage.check](coverage, rule_set, unit, devices):
                     yield Finding(unit.uid, kind, "coverage", None, State.OVERDUE, reason, rule.name,
                                   rule.source, rule.local, unit.source, unit.uid)
 

@@ -1,129 +1,140 @@
-"""Placement (coverage) rules: is every room and level covered as the chosen rule set asks?
+"""Placement (coverage) checks: the vocabulary the rule-set files use.
 
-Each rule is a function of a unit and its devices in service, yielding
-(kind of alarm needed, reason naming the room or level). The rule names and
-their sources live in `rules.COVERAGE_SETS`; `checks.coverage_gaps` turns the
-results into findings.
+Each check is a function of one rule (its parameters, from a rule-set file), the rule set, a unit and the
+devices in service, yielding (kind of alarm needed, finding text). Which rules apply, with which rooms,
+words and sources, is data (`rulesets`); how each kind of rule is judged is here.
+
+Sleeping areas: a room outside a sleeping area may list the bedrooms it `serves`; a bedroom that no room
+lists belongs, with the other unlisted bedrooms of its level, to one sleeping area per level, served by the
+rooms on that level marked `outside_sleeping` without a `serves` list. A hall one floor away never serves
+bedrooms unless it says so (IRC R314.3 item 2: "in the immediate vicinity of the bedrooms").
 """
 from __future__ import annotations
 
 from typing import Callable, Iterator
 
 from . import model as m
+from .rulesets import CoverageRule, RuleSet
 
 Gap = tuple[m.Kind, str]
-SMOKE_KINDS = {m.Kind.SMOKE, m.Kind.SMOKE_CO}
-CO_KINDS = {m.Kind.CO, m.Kind.SMOKE_CO}
 
 
-def _level_name(level: int) -> str:
+def level_name(level: int) -> str:
     return "the basement" if level < 0 else "the ground level" if level == 0 else f"level {level}"
 
 
-def _in_rooms(devices: list[m.Device], kinds: set[m.Kind], rooms: list[m.Room]) -> bool:
+def _has(devices: list[m.Device], kinds: frozenset[m.Kind], rooms: list[m.Room]) -> bool:
     ids = {room.id for room in rooms}
     return any(d.kind in kinds and d.room in ids for d in devices)
 
 
-def _bedrooms(unit: m.Unit) -> list[m.Room]:
-    return [room for room in unit.rooms if room.use is m.RoomUse.BEDROOM]
+def _text(rule: CoverageRule, template: str | None = None, **values) -> str:
+    return (template or rule.finding).format_map(_Blank(values))
 
 
-def _outside_sleeping_rooms(unit: m.Unit, level: int) -> list[m.Room]:
-    """Where an alarm 'outside the sleeping area' can be: any non-bedroom room on the bedrooms' level,
-    or a room marked outside_sleeping half a storey away (split levels)."""
-    return [room for room in unit.rooms if room.use is not m.RoomUse.BEDROOM
-            and (room.level == level or (room.outside_sleeping and abs(room.level - level) <= 1))]
+class _Blank(dict):
+    """Leaves a placeholder a finding names but a check cannot fill as an empty string."""
+
+    def __missing__(self, key: str) -> str:
+        return ""
 
 
-def _needs_co(unit: m.Unit) -> bool:
-    return unit.attached_garage or any(room.fuel_burning for room in unit.rooms)
-
-
-def smoke_in_each_bedroom(unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
-    for room in _bedrooms(unit):
-        if not _in_rooms(devices, SMOKE_KINDS, [room]):
-            yield m.Kind.SMOKE, f"no smoke alarm in the sleeping room {room.name}"
-
-
-def smoke_outside_sleeping(unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
-    for level in sorted({room.level for room in _bedrooms(unit)}):
-        rooms = _outside_sleeping_rooms(unit, level)
-        if not _in_rooms(devices, SMOKE_KINDS, rooms):
-            where = ", ".join(r.name for r in rooms if r.outside_sleeping) or "a hall or landing by the bedrooms"
-            yield m.Kind.SMOKE, f"no smoke alarm outside the sleeping area on {_level_name(level)} (e.g. {where})"
-
-
-def smoke_on_every_level(unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
-    for level in unit.levels:
-        if not _in_rooms(devices, SMOKE_KINDS, [r for r in unit.rooms if r.level == level]):
-            yield m.Kind.SMOKE, f"no smoke alarm on {_level_name(level)}"
-
-
-def co_outside_sleeping(unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
-    if not _needs_co(unit):
-        return
-    for level in sorted({room.level for room in _bedrooms(unit)}):
-        if not _in_rooms(devices, CO_KINDS, _outside_sleeping_rooms(unit, level)):
-            yield m.Kind.CO, (f"no CO alarm outside the sleeping area on {_level_name(level)}; the unit has "
-                              f"{_co_reason(unit)}")
-
-
-def co_on_every_level(unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
-    if not _needs_co(unit):
-        return
-    for level in unit.levels:
-        if not _in_rooms(devices, CO_KINDS, [r for r in unit.rooms if r.level == level]):
-            yield m.Kind.CO, f"no CO alarm on {_level_name(level)}; the unit has {_co_reason(unit)}"
-
-
-def co_in_fuel_burning_room(unit: m.Unit, devices: list[m.Device], bedrooms_only: bool) -> Iterator[Gap]:
-    for room in unit.rooms:
-        if room.fuel_burning and (room.use is m.RoomUse.BEDROOM or not bedrooms_only):
-            if not _in_rooms(devices, CO_KINDS, [room]):
-                yield m.Kind.CO, f"no CO alarm in {room.name}, which has a fuel-burning appliance"
-
-
-def no_smoke_in_kitchen_or_bathroom(unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
-    for device in devices:
-        room = unit.room(device.room)
-        if device.kind in SMOKE_KINDS and room and room.use in (m.RoomUse.KITCHEN, m.RoomUse.BATHROOM):
-            advice = "fit a heat alarm instead" if room.use is m.RoomUse.KITCHEN else "move it outside the room"
-            yield device.kind, (f"smoke alarm {device.id} is in the {room.use} {room.name}: steam or cooking "
-                                f"will set it off; {advice}")
-
-
-def interconnected_where_required(unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
-    if not unit.interconnect_required:
-        return
-    for device in devices:
-        if device.kind in SMOKE_KINDS and not device.interconnected:
-            yield device.kind, (f"smoke alarm {device.id} is not interconnected, and the unit requires "
-                                "interconnected alarms")
-
-
-def rooms_recorded(unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
-    if not unit.rooms:
-        yield m.Kind.SMOKE, ("no rooms recorded, so coverage cannot be judged: add the unit's rooms "
-                             "(recordkit add room)")
-
-
-def _co_reason(unit: m.Unit) -> str:
-    reasons = [f"a fuel-burning appliance in {r.name}" for r in unit.rooms if r.fuel_burning]
-    if unit.attached_garage:
+def co_reason(rule_set: RuleSet, unit: m.Unit) -> str:
+    """Why a unit needs CO alarms under the rule set's trigger ("" when it does not)."""
+    reasons = []
+    if rule_set.co_needed_by is not None:
+        reasons = [f"{rule_set.co_needed_by.describe(r)} in {r.name}" for r in unit.rooms
+                   if rule_set.co_needed_by.matches(r)]
+    if rule_set.co_attached_garage and unit.attached_garage:
         reasons.append("an attached garage")
     return " and ".join(reasons)
 
 
-COVERAGE_CHECKS: dict[str, Callable[[m.Unit, list[m.Device]], Iterator[Gap]]] = {
-    "cov_rooms_recorded": rooms_recorded,
-    "cov_smoke_bedroom": smoke_in_each_bedroom,
-    "cov_smoke_outside_sleeping": smoke_outside_sleeping,
-    "cov_smoke_every_level": smoke_on_every_level,
-    "cov_co_outside_sleeping": co_outside_sleeping,
-    "cov_co_every_level": co_on_every_level,
-    "cov_co_fuel_bedroom": lambda unit, devices: co_in_fuel_burning_room(unit, devices, bedrooms_only=True),
-    "cov_co_fuel_room": lambda unit, devices: co_in_fuel_burning_room(unit, devices, bedrooms_only=False),
-    "cov_no_smoke_kitchen_bath": no_smoke_in_kitchen_or_bathroom,
-    "cov_interconnect": interconnected_where_required,
-}
+def rooms_recorded(rule: CoverageRule, rule_set: RuleSet, unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
+    if not unit.rooms:
+        yield rule.kind, _text(rule)
+
+
+def alarm_in_each_room(rule: CoverageRule, rule_set: RuleSet, unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
+    for room in unit.rooms:
+        if rule.rooms.matches(room) and not _has(devices, rule.kinds, [room]):
+            yield rule.kind, _text(rule, room=room.name, level=level_name(room.level), use=room.use,
+                                   appliances=rule.rooms.describe(room), co_reason=co_reason(rule_set, unit))
+
+
+def alarm_in_one_of_rooms(rule: CoverageRule, rule_set: RuleSet, unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
+    rooms = [room for room in unit.rooms if rule.rooms.matches(room)]
+    if not rooms:
+        yield rule.kind, _text(rule, rule.finding_no_room)
+    elif not _has(devices, rule.kinds, rooms):
+        yield rule.kind, _text(rule, rooms=", ".join(r.name for r in rooms))
+
+
+def sleeping_areas(unit: m.Unit) -> list[tuple[list[m.Room], list[m.Room]]]:
+    """(bedrooms, the rooms outside them that serve them), one pair per separate sleeping area."""
+    bedrooms = [room for room in unit.rooms if room.use is m.RoomUse.BEDROOM]
+    listed = {bedroom for room in unit.rooms for bedroom in room.serves}
+    areas: dict[tuple, tuple[list[m.Room], list[m.Room]]] = {}
+    for bedroom in bedrooms:
+        if bedroom.id in listed:
+            serving = [r for r in unit.rooms if bedroom.id in r.serves]
+        else:
+            serving = [r for r in unit.rooms if r.outside_sleeping and not r.serves and r.use is not m.RoomUse.BEDROOM
+                       and r.level == bedroom.level]
+        key = (tuple(sorted(r.id for r in serving)), None if bedroom.id in listed or serving else bedroom.level)
+        areas.setdefault(key, ([], serving))[0].append(bedroom)
+    return list(areas.values())
+
+
+def alarm_outside_each_sleeping_area(rule: CoverageRule, rule_set: RuleSet, unit: m.Unit,
+                                     devices: list[m.Device]) -> Iterator[Gap]:
+    if rule.when_co_needed and not co_reason(rule_set, unit):
+        return
+    for bedrooms, serving in sleeping_areas(unit):
+        if _has(devices, rule.kinds, serving):
+            continue
+        where = (", ".join(r.name for r in serving) if serving else
+                 "no room is marked outside_sleeping on this level: mark the hall or landing by these bedrooms")
+        yield rule.kind, _text(rule, bedrooms=", ".join(r.name for r in bedrooms), where=where,
+                               level=level_name(bedrooms[0].level), co_reason=co_reason(rule_set, unit))
+
+
+def storeys(rule_set: RuleSet, unit: m.Unit) -> list[int]:
+    """The levels that need an alarm: with a room whose use counts (or marked habitable)."""
+    return sorted({room.level for room in unit.rooms
+                   if room.habitable or room.use not in rule_set.storeys_not_counting})
+
+
+def alarm_on_each_storey(rule: CoverageRule, rule_set: RuleSet, unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
+    if rule.when_co_needed and not co_reason(rule_set, unit):
+        return
+    for level in storeys(rule_set, unit):
+        if not _has(devices, rule.kinds, [r for r in unit.rooms if r.level == level]):
+            yield rule.kind, _text(rule, level=level_name(level), co_reason=co_reason(rule_set, unit))
+
+
+def no_alarm_in_rooms(rule: CoverageRule, rule_set: RuleSet, unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
+    for device in devices:
+        room = unit.room(device.room)
+        if device.kind in rule.kinds and room and rule.rooms.matches(room):
+            yield device.kind, _text(rule, device=device.id, use=room.use, room=room.name)
+
+
+def interconnected(rule: CoverageRule, rule_set: RuleSet, unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
+    if rule.required == "unit_flag" and not unit.interconnect_required:
+        return
+    for device in devices:
+        if device.kind in rule.kinds and not device.interconnected:
+            yield device.kind, _text(rule, device=device.id, kind=device.kind.label)
+
+
+def power_is(rule: CoverageRule, rule_set: RuleSet, unit: m.Unit, devices: list[m.Device]) -> Iterator[Gap]:
+    for device in devices:
+        if device.kind in rule.kinds and device.power not in rule.power:
+            yield device.kind, _text(rule, device=device.id, kind=device.kind.label)
+
+
+Check = Callable[[CoverageRule, RuleSet, m.Unit, list[m.Device]], Iterator[Gap]]
+CHECKS: dict[str, Check] = {check.__name__: check for check in (
+    rooms_recorded, alarm_in_each_room, alarm_in_one_of_rooms, alarm_outside_each_sleeping_area,
+    alarm_on_each_storey, no_alarm_in_rooms, interconnected, power_is)}

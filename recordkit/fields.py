@@ -120,6 +120,17 @@ class Fields:
             self.error(key, f"'{key}' is {value!r}; expected one of: {', '.join(e.value for e in enum)}")
             return default
 
+    def choices(self, key: str, enum: type[E]) -> tuple[E, ...]:
+        """A list of enum values, each checked at its own line."""
+        found = []
+        for item, line in self.items(key):
+            try:
+                found.append(enum(item))
+            except ValueError:
+                self.problems.add(Source(self.path, line), f"{self.what}: '{key}' has {item!r}; expected any of: "
+                                  f"{', '.join(e.value for e in enum)}")
+        return tuple(found)
+
     def flag(self, key: str) -> bool:
         value = self._get(key, False)
         if value is _MISSING:

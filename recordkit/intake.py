@@ -39,8 +39,8 @@ def unit_devices(loaded: Loaded, unit_uid: str, when: date) -> list[str]:
     found = [loc for loc in loaded.portfolio.devices.values() if loc.unit.uid == unit_uid]
     if not found and not any(u.uid == unit_uid for p in loaded.portfolio.properties for u in p.units):
         raise IntakeError(f"no unit '{unit_uid}' (write property/unit)")
-    return [loc.device.uid for loc in found
-            if (retired := loaded.portfolio.retired_on(loc.device.uid)) is None or retired > when]
+    return [loc.device.uid for loc in found if loc.device.installed <= when
+            and ((retired := loaded.portfolio.retired_on(loc.device.uid)) is None or retired > when)]
 
 
 def target_file(records_dir: Path, named: str | None, when: date) -> Path:

@@ -69,13 +69,17 @@ def record_files(root: Path, problems: Problems) -> list[Path]:
     return found
 
 
-def load_records(root: str | Path, as_of: date, cache: bool = True) -> Loaded:
-    """Load and validate every record under `root` as of a date (events after it are refused).
+def load_records(root: str | Path, as_of: date, cache: bool = True, today: date | None = None) -> Loaded:
+    """Load and validate every record under `root` as of a date.
+
+    Events dated after `today` (the real date, which only the faces read; default `as_of`) are record
+    problems. Events after `as_of` but not after `today` are valid and left out of the portfolio, so a past
+    as-of date shows what the records said then.
 
     With `cache`, parsed files are kept under `root/.recordkit/cache/` and reused while unchanged. Afterwards the
     process's objects are frozen out of the cycle collector (see `_collector_paused`)."""
     with _collector_paused():
-        return _load(Path(root), as_of, cache)
+        return _load(Path(root), as_of, cache, max(today or as_of, as_of))
 
 
 @contextmanager
@@ -96,7 +100,7 @@ def _collector_paused():
             gc.enable()
 
 
-def _load(root: Path, as_of: date, cache: bool) -> Loaded:
+def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
     problems = Problems()
     if not root.is_dir():
         problems.add(Source(str(root), 0), "records folder not found")
@@ -141,10 +145,12 @@ def _load(root: Path, as_of: date, cache: bool) -> Loaded:
     # content and, for "not after the as-of date", on the newest event: skip them when this exact set of
     # files loaded cleanly before.
     fileset = parse_cache.fileset_key(digests) if not problems else None
-    known_clean = bool(fileset) and parse_cache.loaded_clean(fileset, as_of)
-    portfolio = builder.finish(as_of, check_events=not known_clean)
+    known_clean = bool(fileset) and parse_cache.loaded_clean(fileset, today)
+    portfolio = builder.finish(today, check_events=not known_clean)
     if fileset and not known_clean and not problems and portfolio.events:
         parse_cache.mark_clean(fileset, max(e.date for e in portfolio.events))
+    if as_of < today and any(event.date > as_of for event in portfolio.events):  # a past view
+        portfolio = m.Portfolio(portfolio.properties, tuple(e for e in portfolio.events if e.date <= as_of))
     last = datetime.fromtimestamp(newest, timezone.utc) if newest else None
     return Loaded(str(root), portfolio, policy, problems.sorted(), [str(p) for p in paths], last)
 
@@ -271,6 +277,7 @@ class _Builder:
         devices = self._unique(
             [self._device(item, path, ln, f"{pid}/{uid}", room_ids) for item, ln in f.items("devices")], "device")
         self._check_replaces(devices)
+        self._check_serves(rooms)
         unit = m.Unit(uid, f"{pid}/{uid}", name, f.source(), tuple(rooms), tuple(devices),
                       attached_garage=f.flag("attached_garage"),
                       interconnect_required=f.flag("interconnect_required"))
@@ -294,6 +301,15 @@ class _Builder:
             else:
                 by_old[old] = device
 
+    def _check_serves(self, rooms: list[m.Room]) -> None:
+        """`serves:` lists bedrooms of the same unit."""
+        bedrooms = {r.id for r in rooms if r.use is m.RoomUse.BEDROOM}
+        for room in rooms:
+            for served in room.serves:
+                if served not in bedrooms:
+                    self.problems.add(room.source, f"room '{room.id}': serves '{served}', which is not a bedroom "
+                                      "of this unit" + _suggest(served, bedrooms))
+
     def _room(self, tree: Any, path: str, line: int) -> m.Room | None:
         f = Fields(tree, path, self.problems, "room", line)
         if not f.ok:
@@ -301,9 +317,12 @@ class _Builder:
         rid = f.ident()
         f.what = f"room '{rid}'"
         level = f.number("level", integer=True, required=True)
+        serves = tuple(str(item) for item, _ in f.items("serves"))
         room = m.Room(rid, f.text("name", default=rid), int(level or 0),
                       f.choice("use", m.RoomUse, m.RoomUse.OTHER, required=True), f.source(),
-                      outside_sleeping=f.flag("outside_sleeping"), fuel_burning=f.flag("fuel_burning"))
+                      outside_sleeping=f.flag("outside_sleeping") or bool(serves), fuel_burning=f.flag("fuel_burning"),
+                      appliances=f.choices("appliances", m.Appliance), flue=f.flag("flue"), serves=serves,
+                      habitable=f.flag("habitable"))
         f.finish()
         return room if rid else None
 
@@ -404,7 +423,7 @@ class _Builder:
         return event if len(self.problems) == before else None  # unreadable: not checked further
 
     # ---- cross-references ----------------------------------------------------------------
-    def finish(self, as_of: date, check_events: bool = True) -> m.Portfolio:
+    def finish(self, today: date, check_events: bool = True) -> m.Portfolio:
         portfolio = m.Portfolio(tuple(self.properties), tuple(self.events))
         devices = portfolio.devices
         for located in devices.values():
@@ -418,19 +437,20 @@ class _Builder:
                                       "not an alarm")
         if check_events:
             for event in portfolio.events:
-                self._check_event(event, portfolio, as_of)
+                self._check_event(event, portfolio, today)
         return portfolio
 
-    def _check_event(self, event: m.Event, portfolio: m.Portfolio, as_of: date) -> None:
-        for message in event_problems(event, portfolio, as_of):
+    def _check_event(self, event: m.Event, portfolio: m.Portfolio, today: date) -> None:
+        for message in event_problems(event, portfolio, today):
             self.problems.add(event.source, f"event: {message}")
 
 
-def event_problems(event: m.Event, portfolio: m.Portfolio, as_of: date) -> list[str]:
-    """What is wrong with an event against the records: the same rules for files, `log` and `import`."""
+def event_problems(event: m.Event, portfolio: m.Portfolio, today: date) -> list[str]:
+    """What is wrong with an event against the records: the same rules for files, `log` and `import`.
+    `today` is the real date: an event after it has not happened yet."""
     problems = []
-    if event.date > as_of:
-        problems.append(f"dated {event.date}, after the as-of date {as_of} (a future event?)")
+    if event.date > today:
+        problems.append(f"dated {event.date}, after today ({today}): a date in the future")
     if event.action is m.Action.TEST and event.result is None:
         problems.append("a test needs 'result: pass' or 'result: fail'")
     if event.action is not m.Action.TEST and event.result is not None:

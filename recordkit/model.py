@@ -80,7 +80,24 @@ class RoomUse(StrEnum):
     LOFT = "loft"
     OFFICE = "office"
     STAIRS = "stairs"
+    STORAGE = "storage"
+    PLANT = "plant"      # boiler or plant room
     OTHER = "other"
+
+
+class Appliance(StrEnum):
+    """Fuel-burning appliances a room may hold; each coverage rule set decides which need a CO alarm."""
+
+    GAS_BOILER = "gas_boiler"
+    OIL_BOILER = "oil_boiler"
+    SOLID_FUEL_BOILER = "solid_fuel_boiler"
+    GAS_WATER_HEATER = "gas_water_heater"
+    GAS_COOKER = "gas_cooker"      # a gas cooker or hob
+    GAS_FIRE = "gas_fire"
+    STOVE = "stove"                # a wood-burning or multi-fuel stove
+    OPEN_FIRE = "open_fire"
+    OIL_HEATER = "oil_heater"
+    OTHER = "other"                # some other fixed combustion appliance
 
 
 class Action(StrEnum):
@@ -98,6 +115,9 @@ class Result(StrEnum):
     FAIL = "fail"
 
 
+_NO_TIME = time_of_day.min
+
+
 @dataclass(frozen=True)
 class Room:
     id: str
@@ -106,7 +126,15 @@ class Room:
     use: RoomUse
     source: Source
     outside_sleeping: bool = False
-    fuel_burning: bool = False
+    fuel_burning: bool = False        # some fixed combustion appliance (type not recorded)
+    appliances: tuple[Appliance, ...] = ()
+    flue: bool = False                # a flue passes through the room
+    serves: tuple[str, ...] = ()      # for a room outside a sleeping area: the bedrooms it serves
+    habitable: bool = False           # counts as living accommodation whatever its use (a converted loft)
+
+    @property
+    def burns_fuel(self) -> bool:
+        return self.fuel_burning or bool(self.appliances)
 
 
 @dataclass(frozen=True)
@@ -218,9 +246,11 @@ class Portfolio:
 
     @cached_property
     def history(self) -> dict[str, tuple[Event, ...]]:
-        """Each device's events, oldest first; same-day events keep file order."""
+        """Each device's events, oldest first: by date, then time of day; on one day an event with no time
+        comes before the timed ones (so a timed failure is never hidden by an untimed pass of that day),
+        and events alike in both keep file order (the sort is stable)."""
         by_device: dict[str, list[Event]] = {}
-        for event in sorted(self.events, key=lambda e: e.date):  # sort is stable
+        for event in sorted(self.events, key=lambda e: (e.date, e.time or _NO_TIME)):
             by_device.setdefault(event.device, []).append(event)
         return {uid: tuple(events) for uid, events in by_device.items()}
 

@@ -133,44 +133,13 @@ DEFAULT_RULES: tuple[Rule, ...] = (
          "recordkit default; NFPA 72 §7.6 keeps test records at least a year (from memory)"),
 )
 
-# Placement rules by rule set. The same check may rest on different sources in different places.
-_IRC_SMOKE = "IRC R314.3; NFPA 72 §29.5.1"
-_IRC_CO = "IRC R315; NFPA 720 §9.4.1.1 (now NFPA 72 ch. 17/29) - from memory"
-_ENGLAND = "Smoke and Carbon Monoxide Alarm (Amendment) Regulations 2022 (England)"
-_ROOMS_RECORDED = Rule("cov_rooms_recorded", "The unit's rooms are recorded, so placement can be judged", "required",
-                       "common practice: no placement rule can be checked without the rooms")
-COVERAGE_SETS: dict[str, tuple[Rule, ...]] = {
-    "us-irc": (
-        _ROOMS_RECORDED,
-        Rule("cov_smoke_bedroom", "A smoke alarm in each sleeping room", "required", _IRC_SMOKE),
-        Rule("cov_smoke_outside_sleeping", "A smoke alarm outside each sleeping area, near the bedrooms",
-             "required", _IRC_SMOKE),
-        Rule("cov_smoke_every_level", "A smoke alarm on every level, basements included", "required", _IRC_SMOKE),
-        Rule("cov_co_outside_sleeping", "A CO alarm outside each sleeping area (fuel-burning appliance or "
-             "attached garage)", "required", _IRC_CO),
-        Rule("cov_co_every_level", "A CO alarm on every level (fuel-burning appliance or attached garage)",
-             "required", _IRC_CO),
-        Rule("cov_co_fuel_bedroom", "A CO alarm in a bedroom that holds a fuel-burning appliance", "required",
-             _IRC_CO),
-        Rule("cov_no_smoke_kitchen_bath", "No smoke alarm in a kitchen or bathroom (nuisance alarms; a heat "
-             "alarm suits a kitchen)", "required",
-             "NFPA 72 §29.11.3.4: distance from cooking appliances and bathroom doors - from memory"),
-        Rule("cov_interconnect", "Every smoke alarm interconnected where the unit requires it", "required",
-             "IRC R314.4; NFPA 72 §29.8.2"),
-    ),
-    "england-2022": (
-        _ROOMS_RECORDED,
-        Rule("cov_smoke_every_level", "A smoke alarm on every storey used as living accommodation", "required",
-             _ENGLAND),
-        Rule("cov_co_fuel_room", "A CO alarm in any room with a fixed combustion appliance (not gas cookers)",
-             "required", _ENGLAND),
-        Rule("cov_no_smoke_kitchen_bath", "No smoke alarm in a kitchen or bathroom (a heat alarm suits a kitchen)",
-             "required", "common practice (UK fire-service guidance)"),
-        Rule("cov_interconnect", "Every smoke alarm interconnected where the unit requires it", "required",
-             "the unit's interconnect_required flag (local building rules decide)"),
-    ),
-}
-DEFAULT_COVERAGE = "us-irc"
+DEFAULT_COVERAGE = "us-irc"  # placement rule sets are data files: see `rulesets`
+
+
+def coverage_set_names() -> list[str]:
+    from .rulesets import rule_sets  # rule sets are built from Rule: imported when first asked for
+
+    return list(rule_sets())
 
 
 class Policy:
@@ -184,8 +153,15 @@ class Policy:
         self.currency = currency
 
     @property
+    def rule_set(self):
+        """The chosen placement rule set (`rulesets.RuleSet`)."""
+        from .rulesets import rule_sets
+
+        return rule_sets()[self.coverage]
+
+    @property
     def coverage_rules(self) -> tuple[Rule, ...]:
-        return COVERAGE_SETS[self.coverage]
+        return tuple(coverage.rule for coverage in self.rule_set.rules)
 
     def __getitem__(self, name: str) -> Rule:
         return self._rules[name]
@@ -284,9 +260,9 @@ def apply_policy_file(tree: Any, path: str, problems: Problems, policy: Policy |
 
 def _apply_coverage(tree, path: str, problems: Problems, policy: Policy) -> Policy:
     chosen = tree["coverage"]
-    if chosen not in COVERAGE_SETS:
+    if chosen not in coverage_set_names():
         problems.add(Source(path, tree.line_of("coverage")),
-                     f"coverage: {chosen!r}; choose one of: {', '.join(COVERAGE_SETS)}")
+                     f"coverage: {chosen!r}; choose one of: {', '.join(coverage_set_names())}")
         return policy
     return policy.changed(coverage=chosen)
 

@@ -9,7 +9,7 @@ from __future__ import annotations
 from . import model as m
 from .fields import ID_PATTERN
 from .loader import CIRCUIT_KEYS
-from .rules import COST_KINDS, COVERAGE_SETS, DEFAULT_RULES, Interval
+from .rules import COST_KINDS, DEFAULT_RULES, Interval, coverage_set_names
 
 SCHEMA_ID = "https://recordkit.invalid/records.schema.json"
 DAY = {"type": "string", "pattern": r"^\d{4}-\d{2}-\d{2}$", "description": "YYYY-MM-DD"}
@@ -39,7 +39,9 @@ def _object(properties: dict, required: list[str], description: str = "") -> dic
 
 def record_schema() -> dict:
     room = _object({"id": ID, "name": TEXT, "level": {"type": "integer"}, "use": _enum(m.RoomUse),
-                    "outside_sleeping": FLAG, "fuel_burning": FLAG}, ["id", "level", "use"])
+                    "outside_sleeping": FLAG, "fuel_burning": FLAG,
+                    "appliances": {"type": "array", "items": _enum(m.Appliance)}, "flue": FLAG,
+                    "serves": {"type": "array", "items": ID}, "habitable": FLAG}, ["id", "level", "use"])
     listen = {"oneOf": [
         {"type": "string", "description": "a device id in this unit, or property/unit/device"},
         _object({"device": TEXT, "distance_m": {"type": "number", "minimum": 0.1},
@@ -87,7 +89,7 @@ def record_schema() -> dict:
         "description": "A file under records/: a property, a list of events, or both; or policy.yaml.",
         "type": "object",
         "properties": {"property": prop, "events": {"type": "array", "items": event}, "policy": policy,
-                       "coverage": {"enum": list(COVERAGE_SETS)}, "replacement_costs": costs},
+                       "coverage": {"enum": coverage_set_names()}, "replacement_costs": costs},
         "additionalProperties": False,
         "minProperties": 1,
     }

@@ -8,7 +8,7 @@ import jinja2
 
 from .fields import ID_PATTERN
 from .render.labels import STARTER
-from .rules import COVERAGE_SETS
+from .rules import coverage_set_names
 
 PLACEHOLDER_ID = "my-property"
 PLACEHOLDER_NAME = "My property"
@@ -34,8 +34,8 @@ def starter_files(property_id: str | None, name: str | None, address: str | None
     for what, ident in (("property id", property_id), ("unit id", unit_id)):
         if not ID_PATTERN.match(ident):
             raise StarterError(f"{what} {ident!r}: use lowercase a-z, 0-9 and hyphens (e.g. 'elm-court')")
-    if rules not in COVERAGE_SETS:
-        raise StarterError(f"rules {rules!r}: choose one of {', '.join(COVERAGE_SETS)}")
+    if rules not in coverage_set_names():
+        raise StarterError(f"rules {rules!r}: choose one of {', '.join(coverage_set_names())}")
     for what, text in (("name", name), ("address", address), ("unit name", unit_name)):
         if text is not None and ("\n" in text or "\r" in text):
             raise StarterError(f"{what}: one line of text, please")

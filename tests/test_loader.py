@@ -69,7 +69,7 @@ EVENT = "events:\n  - {date: 2026-11-01, device: test-house/main/s1, action: tes
     (with_device() + EVENT.replace("result: pass", "result: maybe"), 13, "'result' is 'maybe'"),
     (with_device() + EVENT.replace(", result: pass", ""), 13, "a test needs 'result: pass'"),
     (with_device() + EVENT.replace("action: test", "action: battery"), 13, "only a test has a result"),
-    (with_device() + EVENT.replace("2026-11-01", "2026-12-02"), 13, "after the as-of date 2026-12-01"),
+    (with_device() + EVENT.replace("2026-11-01", "2026-12-02"), 13, "after today (2026-12-01): a date in the future"),
     (with_device() + EVENT.replace("2026-11-01", "2019-12-31"), 13, "before 'test-house/main/s1' was installed"),
     (with_device(removed="2026-10-01") + EVENT, 13, "after 'test-house/main/s1' was retired (2026-10-01)"),
     (with_device() + EVENT.replace("2026-11-01", "2026-11-31"), 13, "2026-11-31 is not a real date"),

@@ -84,7 +84,7 @@ def test_override_with_source_is_applied_and_marked_local():
     ("policy:\n  failed_test: {value: 1 week, source: x}\n", 2, "cannot be changed"),
     ("policy:\n  smoke_life: {value: 0 years, source: x}\n", 2, "at least 1"),
     ("rules:\n  smoke_life: {value: 8 years, source: x}\n", 1, "nothing else"),
-    ("coverage: mars-2050\n", 1, "choose one of: us-irc, england-2022"),
+    ("coverage: mars-2050\n", 1, "choose one of: england-2022, scotland-2022, us-irc"),
     ("replacement_costs: {smoke: cheap}\n", 1, "smoke must be a number"),
     ("policy:\n  door_loss: {value: 12 dBA, source: x}\n", 2, "expected a number of dB"),
 ])

@@ -19,7 +19,7 @@ def test_overview_to_unit_page_and_back(browser, tmp_path):
     ARTIFACTS.mkdir(exist_ok=True)
     browser.save_screenshot(str(ARTIFACTS / "site-overview.png"))
 
-    link = rows[0].find_element(By.CSS_SELECTOR, "a[href*='#device-']")
+    link = next(links[0] for row in rows if (links := row.find_elements(By.CSS_SELECTOR, "a[href*='#device-']")))
     device_id = link.text
     link.click()
     assert "/properties/" in browser.current_url and f"#device-{device_id}" in browser.current_url

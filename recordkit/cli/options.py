@@ -59,7 +59,8 @@ records_option = click.option(
     help="The records folder.")
 as_of_option = click.option(
     "--as-of", "as_of", type=click.DateTime(formats=["%Y-%m-%d"]), default=None, metavar="YYYY-MM-DD",
-    help="Judge the records as of this date (default: today). Events dated after it are refused.")
+    help="Judge the records as of this date (default: today). A past date shows what the records said "
+         "then: later events are left out.")
 
 
 def date_option(help_text: str):
@@ -100,7 +101,7 @@ def print_problems(loaded: Loaded) -> None:
 
 
 def load(records_dir: Path, as_of: date) -> Loaded:
-    loaded = load_records(records_dir, as_of)
+    loaded = load_records(records_dir, as_of, today=today())
     print_problems(loaded)
     return loaded
 

@@ -8,7 +8,7 @@ from pathlib import Path
 import click
 
 from .options import EXIT_ERRORS, command, emit, load, out_option, records_option, today
-from ..rules import COVERAGE_SETS
+from ..rules import coverage_set_names
 
 
 def register(main: click.Group) -> None:
@@ -21,7 +21,7 @@ def register(main: click.Group) -> None:
 @click.option("--property-id", metavar="ID", help="The first property's id (lowercase a-z, 0-9, hyphens).")
 @click.option("--name", help="The property's name, as pages and sheets show it.")
 @click.option("--address", help="The property's address.")
-@click.option("--rules", type=click.Choice(list(COVERAGE_SETS)), help="The placement rule set (default: us-irc).")
+@click.option("--rules", type=click.Choice(coverage_set_names()), help="The placement rule set (default: us-irc).")
 @click.option("--no-input", is_flag=True, help="Never ask; use placeholders for what is not given.")
 def init(records_dir: Path, property_id, name, address, rules, no_input) -> None:
     """Start a records folder: a property file whose every field is explained, policy.yaml with
@@ -38,7 +38,7 @@ def init(records_dir: Path, property_id, name, address, rules, no_input) -> None
                                                   default=PLACEHOLDER_ID)
         name = name or click.prompt("Property name", default="", show_default=False) or None
         address = address or click.prompt("Address", default="", show_default=False) or None
-        rules = rules or click.prompt("Placement rules", type=click.Choice(list(COVERAGE_SETS)), default="us-irc")
+        rules = rules or click.prompt("Placement rules", type=click.Choice(coverage_set_names()), default="us-irc")
     try:
         files = starter_files(property_id, name, address, rules or "us-irc")
     except StarterError as exc:
