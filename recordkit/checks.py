@@ -133,10 +133,16 @@ def _lives(device: m.Device, policy: Policy) -> list[tuple[Rule, Interval]]:
     return lives
 
 
+def _rule_for(policy: Policy, device: m.Device, alarm_rule: str) -> Rule:
+    """Smoke, CO and heat alarms follow alarm guidance; leak sensors and listening nodes their maker."""
+    return policy[alarm_rule if device.kind in m.ALARM_KINDS else f"sensor_{alarm_rule}"]
+
+
 def test_due(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterator[Finding]:
-    rule, window = policy["test_every"], policy.interval("due_soon_test")
+    window = policy.interval("due_soon_test")
     for located in active_devices(portfolio, as_of):
         device = located.device
+        rule = _rule_for(policy, device, "test_every")
         # a listening node's report of a real or test alarm shows it works, like a test
         actions = (m.Action.TEST, m.Action.HEARD) if device.kind is m.Kind.LISTENING_NODE else (m.Action.TEST,)
         last = last_event(portfolio.events_for(device.uid), *actions)
@@ -147,9 +153,10 @@ def test_due(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterator[Fi
 
 
 def battery_due(portfolio: m.Portfolio, policy: Policy, as_of: date) -> Iterator[Finding]:
-    rule, window = policy["battery_every"], policy.interval("due_soon_battery")
+    window = policy.interval("due_soon_battery")
     for located in active_devices(portfolio, as_of):
         device = located.device
+        rule = _rule_for(policy, device, "battery_every")
         if device.power not in (m.Power.BATTERY, m.Power.MAINS_BACKUP):
             continue
         last = last_event(portfolio.events_for(device.uid), m.Action.BATTERY)
@@ -202,6 +209,11 @@ def node_problems(report, policy: Policy) -> Iterator[tuple[str, date | None, st
             missing = " and ".join(x for x, v in (("distance_m", check.distance_m),
                                                    ("threshold_dba", report.threshold_dba)) if v is None)
             yield "min_hearing_margin", None, f"cannot check how well it hears {name}: record {missing}"
+        elif check.margin_db < 0:
+            yield ("min_hearing_margin", None,
+                   f"will not hear {name}: about {check.expected_dba:.0f} dBA reaches it, {-check.margin_db:.1f} dB "
+                   f"below its trigger level of {report.threshold_dba:g} dBA (want {minimum:g} dB above): move it "
+                   "closer or lower the trigger level")
         elif check.margin_db < minimum:
             yield ("min_hearing_margin", None,
                    f"hears {name} at about {check.expected_dba:.0f} dBA, only {check.margin_db:.1f} dB over its "

@@ -99,6 +99,10 @@ DEFAULT_RULES: tuple[Rule, ...] = (
          "US Fire Administration and NFPA safety tips: test at least monthly (follow the maker)"),
     Rule("battery_every", "Change a replaceable battery", Interval(12, "months"),
          "NFPA and US CPSC consumer guidance: at least once a year, and at once on a low-battery chirp"),
+    Rule("sensor_test_every", "Test a leak sensor or listening node", Interval(1, "months"),
+         "the maker's instructions; monthly, with the alarms, is common practice"),
+    Rule("sensor_battery_every", "Change a leak sensor's or listening node's replaceable battery",
+         Interval(12, "months"), "the maker's instructions; yearly is common practice"),
     Rule("failed_test", "Fix or replace after a failed test", "fix now",
          "common practice: a failed alarm is repaired or replaced at once; "
          "NFPA 72 §7.6 records what was done about a failure (from memory)"),

@@ -85,7 +85,8 @@ def test_monthly_card_and_blank_sheet_fit_one_page(tmp_path, sheet, extra):
         for device in ("hall-smoke", "living-co", "utility-leak", "hall-node"):
             assert device in text
     else:
-        for field in ("manufactured", "installed", "outside_sleeping", "fuel_burning", "listening_node"):
+        for field in ("manufactured", "installed", "outside_sleeping", "fuel_burning", "listening_node", "serves",
+                      "appliances", "gas_cooker", "habitable"):
             assert field in text  # the record file's own names, to type straight in
 
 

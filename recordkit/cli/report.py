@@ -100,10 +100,15 @@ def status(records_dir: Path, as_of, fmt: str, show_ok: bool, properties, units,
 def rules(records_dir: Path, as_of) -> None:
     """List every rule in force: value, source, and whether policy.yaml set it."""
     loaded = load_or_exit(records_dir, as_of_day(as_of), need_records=False)
+    rule_set = loaded.policy.rule_set
     for rule in loaded.policy:
+        if rule.name == rule_set.rules[0].rule.name:
+            click.echo(f"\nPlacement rule set in force: {rule_set.name} - {rule_set.title}")
         where = f"local, {rule.defined_at}" if rule.local else "default"
         click.echo(f"{rule.name}: {rule.value}  [{where}]")
         click.echo(f"    {rule.title}. Source: {rule.source}")
+    click.echo("\nThe local fire code and the authority having jurisdiction (AHJ) decide; where they differ "
+               "from these rules, the local rule wins.")
 
 
 @command("node")
@@ -130,10 +135,14 @@ def node_command(device_id, records_dir: Path, as_of, fmt) -> None:
         raise click.UsageError(f"no listening node '{device_id}' (nodes: {', '.join(nodes) or 'none'})")
     report = node_report(loaded.portfolio, loaded.policy, located.device, day)
     problems = [reason for _, _, reason in node_problems(report, loaded.policy)]
+    retired = loaded.portfolio.retired_on(device_id)
+    retired = retired if retired and retired <= day else None
     if fmt == "json":
-        print_json({"as_of": day.isoformat(), **report.as_json(), "findings": problems})
+        print_json({"as_of": day.isoformat(), "retired": retired.isoformat() if retired else None,
+                    **report.as_json(), "findings": problems})
         return
-    click.echo(f"Listening node {device_id}, as of {day}")
+    click.echo(f"Listening node {device_id}, as of {day}" + (
+        f": RETIRED on {retired} (no longer in service; the figures are its last design)" if retired else ""))
     for check_ in report.listened:
         margin = f"{check_.margin_db:.1f} dB margin" if check_.margin_db is not None else "margin unknown"
         level = f"{check_.expected_dba:.0f} dBA" if check_.expected_dba is not None else "level unknown"

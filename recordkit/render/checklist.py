@@ -50,7 +50,7 @@ _env = jinja2.Environment(loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=
                           trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined)
 _env.globals.update(kind_label=kind_label, state_labels=STATE_LABELS, short_caution=SHORT,
                     button_caution=BUTTON_TEST_CAUTION, kinds=list(m.Kind), powers=list(m.Power),
-                    uses=list(m.RoomUse), sensors=list(m.Sensor))
+                    uses=list(m.RoomUse), sensors=list(m.Sensor), appliances=list(m.Appliance))
 
 
 def _due_text(finding: Finding) -> str:

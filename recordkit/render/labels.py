@@ -21,3 +21,20 @@ TASK_LABELS = {"replace": "Replace", "test": "Test", "battery": "Battery", "fix"
 
 def kind_label(kind: m.Kind) -> str:
     return kind.label[0].upper() + kind.label[1:]
+
+
+def room_notes(room: m.Room) -> list[str]:
+    """What a room's record says beyond its use: sleeping area, appliances, flue, habitable."""
+    notes = []
+    if room.serves:
+        notes.append("outside the sleeping area of " + ", ".join(room.serves))
+    elif room.outside_sleeping:
+        notes.append("outside the sleeping area")
+    notes += [a.value.replace("_", " ") for a in room.appliances]
+    if room.fuel_burning:
+        notes.append("fuel-burning appliance")
+    if room.flue:
+        notes.append("flue passes through")
+    if room.habitable:
+        notes.append("habitable")
+    return notes

@@ -27,11 +27,12 @@ from ..nodes import NodeReport, node_report
 from .charts import (envelope_svg, forecast_svg, monthly_grid_svg, position_cells, replacement_forecast,
                      yearly_costs)
 from ..schema import record_schema
+from ..rules import coverage_set_names
 from ..schedule import State
 from .checklist import (UnitSheet, blank_unit_html, findings_by_device, inspection_html, monthly_card_html,
                         unit_sheet)
 from .escape import md_text
-from .labels import STATE_LABELS, TASK_LABELS, TEMPLATES, kind_label
+from .labels import STATE_LABELS, TASK_LABELS, TEMPLATES, kind_label, room_notes
 
 UPCOMING_DAYS = 90
 # At a managing agent's scale the overview lists counts per property instead of every task,
@@ -156,7 +157,7 @@ class SiteBuilder:
         # the HTML parts (put in after Markdown): a second environment that escapes for HTML
         self.html_env = jinja2.Environment(loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=True,
                                            trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined)
-        self.html_env.globals.update(badge=badge, kind_label=kind_label, task_label=TASK_LABELS.get, as_of=as_of,
+        self.html_env.globals.update(badge=badge, kind_label=kind_label, room_notes=room_notes, task_label=TASK_LABELS.get, as_of=as_of,
                                     device_anchor=device_anchor)
         self.env.globals.update(badge=badge, anchor=anchor, front_title=front_title, task_label=TASK_LABELS.get, kind_label=kind_label,
                                 when=lambda f: when(f, as_of), as_of=as_of, short_caution=SHORT,
@@ -389,8 +390,9 @@ class SiteBuilder:
         return chain[0].id if len(chain) == 1 else f"{chain[0].id} (was {chain[1].id})"
 
     def rules(self) -> str:
-        return self._render("rules.md.j2", "rules.md", rules=list(self.loaded.policy),
-                            rule_set=self.loaded.policy.coverage)
+        policy = self.loaded.policy
+        return self._render("rules.md.j2", "rules.md", rules=list(policy), rule_set=policy.coverage,
+                            rule_set_title=policy.rule_set.title, rule_set_names=coverage_set_names())
 
     def keeping_records(self) -> str:
         """How to keep these records, with examples from the user's own ids (not the demo's)."""
