@@ -93,8 +93,9 @@ def alarm_outside_each_sleeping_area(rule: CoverageRule, rule_set: RuleSet, unit
     for bedrooms, serving in sleeping_areas(unit):
         if _has(devices, rule.kinds, serving):
             continue
-        where = (", ".join(r.name for r in serving) if serving else
-                 "no room is marked outside_sleeping on this level: mark the hall or landing by these bedrooms")
+        where = ("e.g. " + ", ".join(r.name for r in serving) if serving else
+                 "no room on their level is marked outside_sleeping or serves them: record the hall or landing "
+                 "by these bedrooms")
         yield rule.kind, _text(rule, bedrooms=", ".join(r.name for r in bedrooms), where=where,
                                level=level_name(bedrooms[0].level), co_reason=co_reason(rule_set, unit))
 

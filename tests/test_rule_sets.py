@@ -150,7 +150,7 @@ def test_a_hall_on_another_level_does_not_serve_the_bedrooms(records):
     # IRC R314.3 item 2: in the immediate vicinity of the bedrooms, on their level
     found = [r for rule, r in coverage(records, "us-irc", rooms, [("smoke", "bed", ""), ("smoke", "hall", "")])
              if rule == "cov_smoke_outside_sleeping"]
-    assert len(found) == 1 and "no room is marked outside_sleeping" in found[0] and "level 1" in found[0]
+    assert len(found) == 1 and "no room on their level is marked outside_sleeping" in found[0] and "level 1" in found[0]
 
 
 def test_only_rooms_outside_a_sleeping_area_count_for_co(records):

@@ -106,11 +106,20 @@ def add_unit(records_dir: Path, property_id, ident, name, attached_garage, inter
 @click.option("--level", type=int, required=True, help="Its storey: 0 ground, 1 first floor, -1 basement.")
 @click.option("--use", type=click.Choice([u.value for u in m.RoomUse]), required=True, help="What it is used for.")
 @click.option("--outside-sleeping", is_flag=True, help="A hall or landing outside the bedrooms.")
-@click.option("--fuel-burning", is_flag=True, help="It holds a fuel-burning appliance.")
-def add_room(records_dir: Path, unit_uid, ident, name, level, use, outside_sleeping, fuel_burning) -> None:
+@click.option("--serves", multiple=True, metavar="BEDROOM_ID", help="A bedroom this hall or landing serves "
+              "(repeat for several): they form one sleeping area.")
+@click.option("--appliance", "appliances", multiple=True, type=click.Choice([a.value for a in m.Appliance]),
+              help="A fuel-burning appliance in the room (repeat for several).")
+@click.option("--fuel-burning", is_flag=True, help="It holds a fixed combustion appliance of unrecorded type.")
+@click.option("--flue", is_flag=True, help="A flue passes through it.")
+@click.option("--habitable", is_flag=True, help="Living accommodation whatever its use (a converted loft).")
+def add_room(records_dir: Path, unit_uid, ident, name, level, use, outside_sleeping, serves, appliances,
+             fuel_burning, flue, habitable) -> None:
     """Add a room to a unit."""
-    write_entry(records_dir, "room", unit_uid, {"id": ident, "name": name, "level": level, "use": use,
-                                                "outside_sleeping": outside_sleeping, "fuel_burning": fuel_burning})
+    write_entry(records_dir, "room", unit_uid, {
+        "id": ident, "name": name, "level": level, "use": use, "outside_sleeping": outside_sleeping and not serves,
+        "serves": tuple(serves), "appliances": tuple(appliances), "fuel_burning": fuel_burning, "flue": flue,
+        "habitable": habitable})
 
 
 def device_options(func):
