@@ -37,6 +37,19 @@ def device_yaml(**fields) -> str:
     return f"        - {{{body}}}\n"
 
 
+def unit_yaml(rooms, devices, flags=""):
+    """One property 'p' with one unit 'u': room flow mappings, and devices as (kind, room, extra fields)
+    (power sealed unless the extra fields give it)."""
+    text = "property:\n  id: p\n  name: P\n  units:\n    - id: u\n" + flags + "      rooms:\n"
+    text += "".join(f"        - {{{r}}}\n" for r in rooms)
+    text += "      devices:\n" if devices else ""
+    for i, (kind, room, extra) in enumerate(devices):
+        power = "" if "power:" in extra else "power: sealed, "
+        made = "manufactured: 2024-01, " if kind != "leak" else ""
+        text += f"        - {{id: d{i}, kind: {kind}, room: {room}, {power}{made}installed: 2024-02-01{extra}}}\n"
+    return text
+
+
 def write_records(folder: Path, files: dict[str, str]) -> Path:
     for name, text in files.items():
         path = folder / name

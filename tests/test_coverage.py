@@ -5,18 +5,9 @@ from recordkit import model as m
 from recordkit.checks import evaluate
 from recordkit.loader import load_records
 
+from .conftest import unit_yaml
+
 AS_OF = date(2026, 12, 1)
-
-
-def unit_yaml(rooms, devices, flags=""):
-    text = "property:\n  id: p\n  name: P\n  units:\n    - id: u\n" + flags + "      rooms:\n"
-    text += "".join(f"        - {{{r}}}\n" for r in rooms)
-    text += "      devices:\n" if devices else ""
-    for i, (kind, room, extra) in enumerate(devices):
-        made = "manufactured: 2024-01, " if kind != "leak" else ""
-        text += (f"        - {{id: d{i}, kind: {kind}, room: {room}, power: sealed, {made}"
-                 f"installed: 2024-02-01{extra}}}\n")
-    return text
 
 
 def gaps(records, rooms, devices, flags="", policy=""):

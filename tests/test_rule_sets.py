@@ -13,18 +13,9 @@ from recordkit.errors import Problems
 from recordkit.loader import load_records
 from recordkit.rulesets import RULESETS, load_rule_set, rule_sets
 
+from .conftest import unit_yaml
+
 AS_OF = date(2026, 12, 1)
-
-
-def unit_yaml(rooms, devices, flags=""):
-    text = "property:\n  id: p\n  name: P\n  units:\n    - id: u\n" + flags + "      rooms:\n"
-    text += "".join(f"        - {{{r}}}\n" for r in rooms)
-    text += "      devices:\n" if devices else ""
-    for i, (kind, room, extra) in enumerate(devices):
-        power = "" if "power:" in extra else "power: sealed, "
-        text += (f"        - {{id: d{i}, kind: {kind}, room: {room}, {power}manufactured: 2024-01, "
-                 f"installed: 2024-02-01{extra}}}\n")
-    return text
 
 
 def coverage(records, rule_set, rooms, devices, flags=""):
