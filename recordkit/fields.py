@@ -7,6 +7,7 @@ reports keys nobody asked for: a misspelt key is an error, not silently lost.
 """
 from __future__ import annotations
 
+import math
 import re
 from datetime import date, time
 from enum import StrEnum
@@ -25,10 +26,21 @@ _MONTH = re.compile(r"^(\d{4})-(\d{2})$")
 _DAY_TIME = re.compile(r"^(\d{4}-\d{2}-\d{2})(?:[ T](\d{2}):(\d{2})(?::(\d{2}))?)?$")
 _SCIENTIFIC = re.compile(r"^[-+]?\d+(\.\d*)?[eE][-+]?\d+$")
 _MISSING = object()
+# Record dates are bounded so every date sum the tool makes stays a real date (a year-9999 entry once
+# passed `check` and crashed every other command).
+FIRST_YEAR, LAST_YEAR = 1900, 2199
+MAX_LIFE_YEARS = 50  # a maker's stated life; no alarm is sold for longer
 
 
 def parse_date(text: Any, *, allow_month: bool = False, allow_unknown: bool = False) -> date | None:
-    """Strictly parse YYYY-MM-DD (or YYYY-MM, read as the 1st; or 'unknown' -> None)."""
+    """Strictly parse YYYY-MM-DD (or YYYY-MM, read as the 1st; or 'unknown' -> None), 1900-2199."""
+    found = _parse_date(text, allow_month, allow_unknown)
+    if found is not None and not FIRST_YEAR <= found.year <= LAST_YEAR:
+        raise ValueError(f"{found} is outside the years {FIRST_YEAR}-{LAST_YEAR} a record may hold")
+    return found
+
+
+def _parse_date(text: Any, allow_month: bool, allow_unknown: bool) -> date | None:
     value = str(text).strip() if isinstance(text, (str, int)) and not isinstance(text, bool) else None
     if value is not None:
         if allow_unknown and value.lower() == "unknown":
@@ -97,13 +109,18 @@ class Fields:
         if isinstance(value, (dict, list)) or isinstance(value, bool):
             self.error(key, f"'{key}' must be text, got {_describe(value)}")
             return default
-        return str(value)
+        return getattr(value, "written", None) or str(value)  # a number-like note keeps its own digits
 
     def ident(self, key: str = "id") -> str:
         value = self._get(key, True)
         if value is _MISSING:
             return ""
-        text = str(value) if isinstance(value, (str, int)) and not isinstance(value, bool) else ""
+        if not isinstance(value, str):
+            written = getattr(value, "written", repr(value))
+            self.error(key, f"bad id {written}: it reads as a number, not a name; quote it (id: \"{written}\") "
+                       "or use letters")
+            return ""
+        text = value
         if not ID_PATTERN.match(text) or text in RESERVED_IDS:
             self.error(key, f"bad id {value!r}: use lowercase a-z, 0-9 and single hyphens inside "
                        "(e.g. flat-1), at most 64 characters, not a reserved device name")
@@ -141,9 +158,12 @@ class Fields:
         return value
 
     def number(self, key: str, *, integer: bool = False, minimum: float | None = None,
-               required: bool = False) -> float | int | None:
+               maximum: float | None = None, required: bool = False) -> float | int | None:
         value = self._get(key, required)
         if value is _MISSING:
+            return None
+        if isinstance(value, float) and not math.isfinite(value):
+            self.error(key, f"'{key}' must be a finite number, got {value!r}")
             return None
         kinds = (int,) if integer else (int, float)
         if not integer and isinstance(value, str) and _SCIENTIFIC.match(value.strip()):
@@ -153,6 +173,9 @@ class Fields:
             return None
         if minimum is not None and value < minimum:
             self.error(key, f"'{key}' must be at least {minimum}, got {value!r}")
+            return None
+        if maximum is not None and value > maximum:
+            self.error(key, f"'{key}' must be at most {maximum}, got {value!r}")
             return None
         return value
 

@@ -9,6 +9,7 @@ keys and aliases become problems, and dates stay as the text the user wrote
 """
 from __future__ import annotations
 
+import re
 from typing import Any
 
 import yaml
@@ -33,6 +34,47 @@ _SCALAR_TAGS = {
     "tag:yaml.org,2002:null",
 }
 _constructor = yaml.constructor.SafeConstructor()
+_INT = "tag:yaml.org,2002:int"
+_FLOAT = "tag:yaml.org,2002:float"
+_BOOL = "tag:yaml.org,2002:bool"
+_STR = "tag:yaml.org,2002:str"
+_NUMBER_STARTS = frozenset("0123456789+-.")  # 1.1 reads 1e5 and 0o17 as text; 1.2 as numbers
+# YAML 1.2 core schema: PyYAML resolves plain scalars by YAML 1.1, where 010 is octal 8, 12:30 is 750
+# (base 60), 1_000 is 1000 and yes/on are true. Records read plain scalars the 1.2 way instead.
+_CORE_DECIMAL = re.compile(r"[-+]?[0-9]+")
+_CORE_OCTAL = re.compile(r"0o[0-7]+")
+_CORE_HEX = re.compile(r"0x[0-9a-fA-F]+")
+_CORE_FLOAT = re.compile(r"[-+]?(\.[0-9]+|[0-9]+(\.[0-9]*)?)([eE][-+]?[0-9]+)?")
+_CORE_SPECIAL = {".inf": float("inf"), "+.inf": float("inf"), "-.inf": float("-inf"), ".nan": float("nan")}
+_CORE_BOOL = {"true": True, "True": True, "TRUE": True, "false": False, "False": False, "FALSE": False}
+
+
+class WrittenInt(int):
+    """A number as YAML 1.2 reads it, remembering the text it was written as (for text fields)."""
+
+    written: str
+
+
+class WrittenFloat(float):
+    written: str
+
+
+def core_scalar(text: str):
+    """A plain scalar that YAML 1.1 took for a number or a boolean, as YAML 1.2 core reads it."""
+    number = None
+    if _CORE_DECIMAL.fullmatch(text):
+        number = WrittenInt(int(text, 10))
+    elif _CORE_OCTAL.fullmatch(text) or _CORE_HEX.fullmatch(text):
+        number = WrittenInt(int(text[2:], 8 if text[1] == "o" else 16))
+    elif _CORE_FLOAT.fullmatch(text) or text.lower() in _CORE_SPECIAL:
+        number = WrittenFloat(_CORE_SPECIAL.get(text.lower(), None) if text.lower() in _CORE_SPECIAL
+                              else float(text))
+    elif text in _CORE_BOOL:
+        return _CORE_BOOL[text]
+    else:
+        return text
+    number.written = text
+    return number
 
 
 class YMap(dict):
@@ -171,6 +213,9 @@ class _Walker:
     def _scalar(self, node: yaml.ScalarNode) -> Any:
         if node.tag == _TIMESTAMP:
             return node.value  # keep dates as written; the model parses them strictly
+        if not node.style and (node.tag in (_INT, _FLOAT, _BOOL)  # plain: "" from the C parser, None from Python
+                               or (node.tag == _STR and node.value[:1] in _NUMBER_STARTS)):
+            return core_scalar(node.value)
         if node.tag not in _SCALAR_TAGS:
             self._problem(node, f"YAML tag {node.tag!r} is not allowed in records")
             return None

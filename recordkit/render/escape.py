@@ -18,10 +18,17 @@ from markupsafe import Markup
 _ESCAPES = str.maketrans({c: f"&#{ord(c)};" for c in "&<>\"'\\`*_{}[]#|~^"})
 
 
+# What makes a line a block when it starts one (a list item, an admonition, a definition, a setext rule);
+# `#` and `>` are escaped everywhere already.
+_BLOCK_START = re.compile(r"^(\s*)(\d+(?=[.)])|)([.)!+=:\-])")
+
+
 def md_text(value: Any) -> str:
     if isinstance(value, Markup):
         return str(value)
     if value is None:
         return ""
     text = re.sub(r"\s+", " ", str(value))  # one line: a newline would end a table row
-    return text.translate(_ESCAPES)
+    text = text.translate(_ESCAPES)
+    # a value may start a line of the page (an address under a heading): never let it open a block
+    return _BLOCK_START.sub(lambda m: f"{m.group(1)}{m.group(2) or ''}&#{ord(m.group(3))};", text, count=1)
