@@ -10,27 +10,36 @@ folder is always safe. Only files that loaded without problems are cached.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import hashlib
+import hmac
 import json
 import os
+import re
+import secrets
 import time
 from datetime import date
 from datetime import time as time_of_day
 from enum import Enum
 from itertools import repeat
 from pathlib import Path
+from stat import S_ISREG
 from types import UnionType
 from typing import Any, Callable, Union, get_args, get_origin, get_type_hints
 
 from . import __version__
 from . import model as m
 from .errors import Source
+from .fields import FIRST_YEAR, ID_PATTERN, LAST_YEAR, RESERVED_IDS
 from .logbook import ensure_work_dir
+from .safeio import read_regular
 
+EVIDENCE_PATTERN = re.compile(r"^sha256:[0-9a-f]{64}$")
 CACHE_DIR = ".recordkit/cache"  # inside the tool's own hidden folder (see logbook.WORK_DIR)
-FORMAT = 6  # 6: devices carry `replaces`
+FORMAT = 7  # 7: keyed checksums, rooms with appliances, serves, flue, habitable
 CLEAN_FILE = "clean.json"
 RACY_SECONDS = 2.0
+MAX_ENTRY_BYTES = 512 * 1024 * 1024  # an entry is smaller than the record file it stands for
 
 
 def _codec(kind: Any) -> tuple[Callable[[Any], Any], Callable[[Any, str], Any]]:
@@ -66,8 +75,19 @@ def _codec(kind: Any) -> tuple[Callable[[Any], Any], Callable[[Any, str], Any]]:
             return record
         return (lambda v: [enc(getattr(v, n)) for n, (enc, _) in zip(names, codecs)]), decode
     if kind in (str, int, float, bool):
-        return (lambda v: v), _as_is
+        return (lambda v: v), _checked(kind)
     raise TypeError(f"no cache codec for {kind!r}")
+
+
+def _checked(kind: type) -> Callable[[Any, str], Any]:
+    """A plain value read back only if it has the type the record field has (a forged entry is a miss)."""
+    allowed = (int, float) if kind is float else (kind,)
+
+    def decode(value: Any, path: str) -> Any:
+        if isinstance(value, bool) is not (kind is bool) or not isinstance(value, allowed):
+            raise TypeError(f"expected {kind.__name__}, got {type(value).__name__}")
+        return value
+    return decode
 
 
 def _as_is(value: Any, path: str) -> Any:
@@ -83,7 +103,19 @@ def encode_property(prop: m.Property) -> list:
 
 
 def decode_property(data: list, path: str) -> m.Property:
-    return _PROPERTY_DECODE(data, path)
+    """A property from its entry, with every id checked as the loader checks it: ids become page paths
+    and links, so an entry must not be able to name `../x` or carry markup."""
+    prop = _PROPERTY_DECODE(data, path)
+    ids = [prop.id]
+    for unit in prop.units:
+        ids += [unit.id, *(r.id for r in unit.rooms), *(d.id for d in unit.devices),
+                *(d.replaces for d in unit.devices if d.replaces),
+                *(served for r in unit.rooms for served in r.serves)]
+        if unit.uid != f"{prop.id}/{unit.id}" or any(d.uid != f"{unit.uid}/{d.id}" for d in unit.devices):
+            raise ValueError("an id path that does not match its ids")
+    if not all(ID_PATTERN.match(i) and i not in RESERVED_IDS for i in ids):
+        raise ValueError("a bad id")
+    return prop
 
 
 def encode_events(events: list[m.Event]) -> dict:
@@ -113,8 +145,12 @@ def decode_events(data: dict, path: str, share: Callable[[str], str], day: Calla
     events are built as tuples in C: a warm load is then about as quick as reading a CSV file.
     A damaged entry raises (ValueError, KeyError, IndexError, TypeError); the caller parses the file again."""
     count = data["count"]
+    if not all(isinstance(s, str) for s in data["strings"]):
+        raise TypeError("a text that is not text")
     strings = [share(s) for s in data["strings"]]
     days = [day(d) for d in data["days"]]
+    if any(not FIRST_YEAR <= d.year <= LAST_YEAR for d in days):
+        raise ValueError("a date outside the years records may hold")
     kinds = [(m.Action(a), m.Result(r) if r is not None else None) for a, r in data["kinds"]]
     actions, results = [k[0] for k in kinds], [k[1] for k in kinds]
     columns = [data[name] for name in ("day", "device", "kind", "by", "note", "line")]
@@ -125,7 +161,9 @@ def decode_events(data: dict, path: str, share: Callable[[str], str], day: Calla
         times[row] = time_of_day.fromisoformat(text)
     evidence: list = [""] * count
     for row, text in data["evidence"]:
-        evidence[row] = str(text)
+        if not EVIDENCE_PATTERN.match(text):
+            raise ValueError("a bad evidence reference")
+        evidence[row] = text
     day_col, device_col, kind_col, by_col, note_col, line_col = columns
     text_at = strings.__getitem__
     rows = zip(map(days.__getitem__, day_col), map(text_at, device_col), map(actions.__getitem__, kind_col),
@@ -135,7 +173,35 @@ def decode_events(data: dict, path: str, share: Callable[[str], str], day: Calla
 
 
 def _checksum(text: str) -> str:
-    return hashlib.blake2b(text.encode("utf-8"), digest_size=16).hexdigest()
+    """Keyed with this machine's own cache key: an entry made elsewhere (copied, synced, planted in a
+    shared folder) is a miss, never trusted. An entry names its file's path, size, time and content hash,
+    so it cannot stand for another file or other content either."""
+    return hashlib.blake2b(text.encode("utf-8"), digest_size=16, key=_machine_key()).hexdigest()
+
+
+@functools.cache
+def _machine_key() -> bytes:
+    """32 random bytes kept outside any records folder ($XDG_CACHE_HOME or ~/.cache, recordkit/cache-key,
+    mode 0600); made on first use. Where it cannot be kept, a key for this process only (no reuse)."""
+    home = Path(os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache") / "recordkit"
+    path = home / "cache-key"
+    try:
+        key = read_regular(path, 64, follow_links=False)
+        if len(key) == 32:
+            return key
+    except OSError:
+        pass
+    key = secrets.token_bytes(32)
+    try:
+        home.mkdir(parents=True, exist_ok=True)
+        temp = home / f".cache-key.{os.getpid()}"
+        fd = os.open(temp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(key)
+        os.replace(temp, path)
+    except OSError:
+        pass
+    return key
 
 
 class ParseCache:
@@ -148,15 +214,18 @@ class ParseCache:
     def _entry_path(self, shown: str) -> Path:
         return self.folder / (hashlib.sha1(shown.encode()).hexdigest() + ".json")
 
-    def get(self, path: Path, shown: str) -> tuple[Any, bytes | None, os.stat_result, str | None]:
-        """(payload or None, the file's bytes if they were read, its stat, its content digest if known)."""
+    def get(self, path: Path, shown: str, limit: int) -> tuple[Any, bytes | None, os.stat_result, str | None]:
+        """(payload or None, the file's bytes if they were read, its stat, its content digest if known).
+        Only a regular file of at most `limit` bytes is read (UnsafeFile otherwise)."""
         stat = path.stat()
+        if not S_ISREG(stat.st_mode) or stat.st_size > limit:
+            read_regular(path, limit)  # raises UnsafeFile with the reason, without reading
         entry = self._load_entry(shown) if self.enabled else None
         if entry and entry["stat_trusted"] and entry["size"] == stat.st_size \
                 and entry["mtime_ns"] == stat.st_mtime_ns:
             self.hits += 1
             return entry["payload"], None, stat, entry["digest"]
-        data = path.read_bytes()
+        data = read_regular(path, limit)
         digest = hashlib.blake2b(data, digest_size=16).hexdigest()
         if entry and entry["digest"] == digest:  # touched but unchanged (e.g. a fresh checkout)
             self.hits += 1
@@ -209,9 +278,10 @@ class ParseCache:
         """What `_write` wrote, or None when it is missing or damaged in any way (its checksum tells,
         even where the damage still reads as JSON: cached records are not validated again)."""
         try:
-            check, _, text = source.read_text(encoding="utf-8").partition("\n")
-            return json.loads(text) if check == _checksum(text) else None
-        except (OSError, ValueError):
+            raw = read_regular(source, MAX_ENTRY_BYTES, follow_links=False)  # never a link or a FIFO
+            check, _, text = raw.decode("utf-8").partition("\n")
+            return json.loads(text) if hmac.compare_digest(check, _checksum(text)) else None
+        except (OSError, ValueError, RecursionError):  # RecursionError: absurdly nested JSON
             return None
 
     def _write(self, target: Path, data: dict) -> None:

@@ -14,6 +14,10 @@ from dateutil import parser as date_parser
 
 from . import model as m
 
+# A cell may be as long as a record file may be (the csv module's default stops at 131,072 characters and
+# raised out of every command).
+csv.field_size_limit(64 * 1024 * 1024)
+
 CSV_COLUMNS = ("date", "device", "action", "result", "by", "note")
 REQUIRED_COLUMNS = ("date", "device", "action")
 _ISO = re.compile(r"^\d{4}-\d{2}-\d{2}$")

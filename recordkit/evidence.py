@@ -6,12 +6,19 @@ import os
 import shutil
 from pathlib import Path
 
+from .safeio import open_regular
+
 EVIDENCE_DIR = "evidence"
 
 
+MAX_RECORDING_BYTES = 512 * 1024 * 1024  # about 45 minutes of 16-bit stereo at 48 kHz
+
+
 def content_hash(path: Path) -> str:
+    """'sha256:<hex>' of a regular file (read in blocks: memory stays small)."""
+    fd, _ = open_regular(path, MAX_RECORDING_BYTES)
     digest = hashlib.sha256()
-    with open(path, "rb") as handle:
+    with os.fdopen(fd, "rb") as handle:
         for block in iter(lambda: handle.read(1 << 20), b""):
             digest.update(block)
     return "sha256:" + digest.hexdigest()
@@ -22,12 +29,28 @@ def evidence_path(records_dir: Path, reference: str) -> Path:
 
 
 def keep(records_dir: Path, recording: Path) -> str:
-    """Copy a recording into records/evidence/<sha256>.wav (once); returns 'sha256:<hex>'."""
+    """Copy a recording into records/evidence/<sha256>.wav (once, fsynced; a file already there is kept
+    only if its content really has that hash); returns 'sha256:<hex>'."""
     reference = content_hash(recording)
     target = evidence_path(records_dir, reference)
-    if not target.exists():
-        target.parent.mkdir(parents=True, exist_ok=True)
-        temp = target.with_name(f".{target.name}.{os.getpid()}.tmp")
-        shutil.copyfile(recording, temp)
-        os.replace(temp, target)
+    if os.path.lexists(target):
+        try:
+            if content_hash(target) == reference:
+                return reference
+        except OSError:
+            pass  # damaged, a link or not a file: replaced below
+    target.parent.mkdir(parents=True, exist_ok=True)
+    temp = target.with_name(f".{target.name}.{os.getpid()}.tmp")
+    shutil.copyfile(recording, temp)
+    with open(temp, "rb+") as handle:
+        os.fsync(handle.fileno())
+    if content_hash(temp) != reference:  # the recording changed while it was copied
+        os.unlink(temp)
+        raise OSError(f"{recording}: changed while it was copied; nothing kept")
+    os.replace(temp, target)
+    folder = os.open(target.parent, os.O_RDONLY)
+    try:
+        os.fsync(folder)
+    finally:
+        os.close(folder)
     return reference

@@ -13,8 +13,10 @@ from pathlib import Path
 from . import csvlog
 from . import model as m
 from .errors import Source
-from .loader import Loaded, event_problems
+from .loader import Loaded, event_problems, unread_reason
 from .logbook import NewEvent, append_events, default_log_file
+from .safeio import read_regular
+from .yamltree import MAX_FILE_BYTES
 
 CSV_COLUMNS = csvlog.CSV_COLUMNS
 
@@ -46,13 +48,10 @@ def unit_devices(loaded: Loaded, unit_uid: str, when: date) -> list[str]:
 def target_file(records_dir: Path, named: str | None, when: date) -> Path:
     """The log file to append to: the one named (relative to the records folder, and inside it),
     or log/YEAR.yaml for the event's year."""
-    if not named:
-        return default_log_file(records_dir, when)
-    path = records_dir / named
-    if not path.resolve().is_relative_to(records_dir.resolve()):
-        raise IntakeError(f"{named}: the log file must be inside the records folder {records_dir}")
-    if path.suffix not in (".yaml", ".yml"):
-        raise IntakeError(f"{named}: a log file name ends in .yaml")
+    path = records_dir / named if named else default_log_file(records_dir, when)
+    reason = unread_reason(records_dir, path)
+    if reason:
+        raise IntakeError(f"{named or path}: not a log file recordkit reads back ({reason}); nothing written")
     return path
 
 
@@ -80,7 +79,7 @@ def read_csv(path: Path, loaded: Loaded, today: date, dayfirst: bool = False) ->
     result = CsvImport()
     shown = str(path)
     try:
-        text = path.read_bytes().decode("utf-8-sig")
+        text = read_regular(path, MAX_FILE_BYTES).decode("utf-8-sig")
     except UnicodeDecodeError:
         result.problems.append(f"{shown}:1: not UTF-8 text; save the sheet as 'CSV UTF-8'")
         return result

@@ -10,6 +10,7 @@ import difflib
 import gc
 import os
 import re
+from collections import Counter
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from datetime import date, datetime, timezone
@@ -22,7 +23,8 @@ from .cache import ParseCache, decode_events, decode_property, encode_events, en
 from .errors import Problem, Problems, Source
 from .fields import Fields
 from .rules import Policy, apply_policy_file
-from .yamltree import read_yaml
+from .safeio import UnsafeFile
+from .yamltree import MAX_FILE_BYTES, read_yaml
 
 POLICY_FILE = "policy.yaml"
 EVIDENCE = re.compile(r"^sha256:[0-9a-f]{64}$")
@@ -54,7 +56,11 @@ def record_files(root: Path, problems: Problems) -> list[Path]:
     found: list[Path] = []
     real_root = root.resolve()
     for folder, dirs, files in os.walk(root, followlinks=False):
-        dirs[:] = sorted(d for d in dirs if not d.startswith("."))
+        for name in dirs:
+            if not name.startswith(".") and os.path.islink(os.path.join(folder, name)):
+                problems.add(Source(os.path.join(folder, name), 0), "a linked folder; refused: recordkit reads and "
+                             "writes only real folders inside the records folder (move the folder in instead)")
+        dirs[:] = sorted(d for d in dirs if not d.startswith(".") and not os.path.islink(os.path.join(folder, d)))
         for name in sorted(files):
             if name.startswith(".") or not name.endswith((*RECORD_SUFFIXES, CSV_SUFFIX)):
                 continue
@@ -67,6 +73,32 @@ def record_files(root: Path, problems: Problems) -> list[Path]:
                 continue
             found.append(path)
     return found
+
+
+def unread_reason(root: Path, path: Path) -> str | None:
+    """Why the loader would not read `path` as a record file (None when it would): a file written there
+    would be lost from every report, or written through a link."""
+    try:
+        parts = path.relative_to(root).parts
+    except ValueError:
+        return "it is outside the records folder"
+    if not parts or any(part in ("", ".", "..") for part in parts):
+        return "it is not a file inside the records folder"
+    if any(part.startswith(".") for part in parts):
+        return "hidden files and folders (a name starting with '.') are never read"
+    if not parts[-1].endswith(RECORD_SUFFIXES):
+        return "only .yaml files are read as YAML records"
+    if len(parts) == 1 and parts[0] in (POLICY_FILE, *SITE_CONFIGS):
+        return f"{parts[0]} is not a log file"
+    for depth in range(1, len(parts) + 1):
+        step = root.joinpath(*parts[:depth])
+        if step.is_symlink():
+            return f"{step} is a link, which is never written through"
+        if depth < len(parts) and step.exists() and not step.is_dir():
+            return f"{step} is not a folder"
+    if path.exists() and not path.is_file():
+        return "it is not a regular file"
+    return None
 
 
 def load_records(root: str | Path, as_of: date, cache: bool = True, today: date | None = None) -> Loaded:
@@ -115,13 +147,16 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
         shown = str(path)
         is_policy = path.parent == root and path.name == POLICY_FILE
         try:
-            payload, data, stat, digest = parse_cache.get(path, shown)
+            payload, data, stat, digest = parse_cache.get(path, shown, MAX_FILE_BYTES)
             newest = max(newest, stat.st_mtime)
             digests.append((shown, digest))
             if payload is not None and not is_policy and builder.add_cached(payload, shown):
                 continue
             if data is None:
                 data = path.read_bytes()
+        except UnsafeFile as exc:
+            problems.add(Source(shown, 0), str(exc).removeprefix(f"{path}: "))
+            continue
         except OSError as exc:
             problems.add(Source(shown, 0), f"cannot read: {exc.strerror or exc}")
             continue
@@ -147,6 +182,8 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
     fileset = parse_cache.fileset_key(digests) if not problems else None
     known_clean = bool(fileset) and parse_cache.loaded_clean(fileset, today)
     portfolio = builder.finish(today, check_events=not known_clean)
+    if not known_clean:
+        _refuse_exports(builder.events, problems)
     if fileset and not known_clean and not problems and portfolio.events:
         parse_cache.mark_clean(fileset, max(e.date for e in portfolio.events))
     if as_of < today and any(event.date > as_of for event in portfolio.events):  # a past view
@@ -175,6 +212,7 @@ class _Builder:
         self.property_sources: dict[str, Source] = {}
         self.strings: dict[str, str] = {}
         self.days: dict[str, date] = {}
+        self.orphans: dict[str, list] = {}  # unknown device id -> [events naming it, the first one's source]
 
     # ---- files -------------------------------------------------------------------------
     def add_file(self, tree: Any, path: str) -> None:
@@ -438,11 +476,25 @@ class _Builder:
         if check_events:
             for event in portfolio.events:
                 self._check_event(event, portfolio, today)
+            self.report_orphans()
         return portfolio
 
     def _check_event(self, event: m.Event, portfolio: m.Portfolio, today: date) -> None:
-        for message in event_problems(event, portfolio, today):
+        messages = event_problems(event, portfolio, today)
+        if messages and event.device not in portfolio.devices:
+            # one typo in a device id can orphan thousands of events: say it a few times, then count
+            seen = self.orphans.setdefault(event.device, [0, event.source])
+            seen[0] += 1
+            if seen[0] > ORPHAN_MESSAGES:
+                return
+        for message in messages:
             self.problems.add(event.source, f"event: {message}")
+
+    def report_orphans(self) -> None:
+        for device, (count, first) in self.orphans.items():
+            if count > ORPHAN_MESSAGES:
+                self.problems.add(first, f"event: {count - ORPHAN_MESSAGES} more event(s) name the unknown device "
+                                  f"'{device}' (not listed one by one)")
 
 
 def event_problems(event: m.Event, portfolio: m.Portfolio, today: date) -> list[str]:
@@ -458,7 +510,7 @@ def event_problems(event: m.Event, portfolio: m.Portfolio, today: date) -> list[
     located = portfolio.devices.get(event.device)
     if located is None:
         return problems + [f"no device '{event.device}' (write property/unit/device)"
-                           + _suggest(event.device, portfolio.devices)]
+                           + device_suggestion(portfolio, event.device)]
     device = located.device
     if event.date < device.installed:
         problems.append(f"dated {event.date}, before '{event.device}' was installed ({device.installed})")
@@ -467,6 +519,62 @@ def event_problems(event: m.Event, portfolio: m.Portfolio, today: date) -> list[
         problems.append(f"dated {event.date}, after '{event.device}' was retired ({retired}); "
                         "log it against the device that replaced it")
     return problems
+
+
+def _refuse_exports(events: list[m.Event], problems: Problems) -> None:
+    """A CSV file every one of whose events is also in other record files is an events export kept in the
+    records folder (or a link to one): loading it would count every event twice."""
+    by_file: dict[str, set] = {}
+    for event in events:
+        by_file.setdefault(event.path, set()).add(
+            (event.date, event.device, event.action, event.result, event.by, event.note))  # exports drop the time
+    if not any(path.endswith(CSV_SUFFIX) for path in by_file):
+        return
+    files_holding: Counter = Counter()
+    for keys in by_file.values():
+        files_holding.update(keys)
+    for path, keys in by_file.items():
+        if path.endswith(CSV_SUFFIX) and all(files_holding[key] > 1 for key in keys):
+            problems.add(Source(path, 0), "every event in this file is also in other record files: an events "
+                         "export kept in the records folder? Move it out (its events would count twice)")
+
+
+ORPHAN_MESSAGES = 3  # events listed one by one per unknown device id; the rest are counted
+
+
+def device_suggestion(portfolio: m.Portfolio, wrong: str) -> str:
+    """'; did you mean ...?' for an unknown property/unit/device id. Computed once per distinct id and
+    one level at a time (the property among properties, the unit among its units, the device among its
+    devices), never by comparing with every device id: a typo on a 1,000-unit portfolio stays quick."""
+    memo = portfolio.__dict__.setdefault("_suggestions", {})  # kept with the portfolio, like its cached index
+    if wrong not in memo:
+        memo[wrong] = _device_suggestion(_id_tree(portfolio), wrong)
+    return memo[wrong]
+
+
+def _device_suggestion(tree: dict, wrong: str) -> str:
+    parts = wrong.split("/")
+    if len(parts) != 3:
+        return ""
+    found, level = [], tree
+    for part in parts:
+        if not level:
+            return ""
+        match = part if part in level else next(iter(difflib.get_close_matches(part, list(level), n=1)), None)
+        if match is None:
+            return ""
+        found.append(match)
+        level = level[match]
+    guess = "/".join(found)
+    return f"; did you mean '{guess}'?" if guess != wrong else ""
+
+
+def _id_tree(portfolio: m.Portfolio) -> dict:
+    tree = portfolio.__dict__.get("_id_tree")
+    if tree is None:
+        tree = portfolio.__dict__["_id_tree"] = {
+            p.id: {u.id: {d.id: {} for d in u.devices} for u in p.units} for p in portfolio.properties}
+    return tree
 
 
 def _suggest(wrong: str, known) -> str:

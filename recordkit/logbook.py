@@ -13,7 +13,9 @@ from __future__ import annotations
 import errno
 import fcntl
 import json
+import logging
 import os
+import time as time_module
 from contextlib import contextmanager
 from dataclasses import dataclass
 from datetime import date, time
@@ -22,7 +24,11 @@ from typing import Callable, Iterator
 
 from . import model as m
 from .errors import Problems
-from .yamltree import YList, YMap, plain, read_yaml
+from .safeio import UnsafeFile, read_regular
+from .yamltree import MAX_FILE_BYTES, YList, YMap, plain, read_yaml
+
+
+log = logging.getLogger("recordkit")
 
 
 class LogWriteError(Exception):
@@ -112,11 +118,33 @@ def locked(path: Path, records_dir: Path | None = None) -> Iterator[None]:
         raise LogWriteError(f"{path}: cannot open the lock file {lock} ({exc.strerror}; a read-only "
                             "folder?); nothing written") from None
     with handle:
-        fcntl.flock(handle, fcntl.LOCK_EX)
+        _wait_for_lock(handle, path, lock)
         try:
             yield
         finally:
             fcntl.flock(handle, fcntl.LOCK_UN)
+
+
+LOCK_TIMEOUT_S = 60.0
+
+
+def _wait_for_lock(handle, path: Path, lock: Path) -> None:
+    """Take the lock at once, or say that another writer holds it and wait for at most LOCK_TIMEOUT_S."""
+    deadline = None
+    while True:
+        try:
+            fcntl.flock(handle, fcntl.LOCK_EX | fcntl.LOCK_NB)
+            return
+        except BlockingIOError:
+            now = time_module.monotonic()
+            if deadline is None:
+                deadline = now + LOCK_TIMEOUT_S
+                log.warning("%s: another recordkit command is writing it; waiting (up to %.0f s) ...", path,
+                            LOCK_TIMEOUT_S)
+            elif now > deadline:
+                raise LogWriteError(f"{path}: another writer has held {lock} for over {LOCK_TIMEOUT_S:.0f} s; "
+                                    "nothing written (try again, or check for a stuck command)") from None
+            time_module.sleep(0.05)
 
 
 def update_file(path: Path, change: Callable[[bytes | None], bytes], records_dir: Path | None = None) -> None:
@@ -128,7 +156,11 @@ def update_file(path: Path, change: Callable[[bytes | None], bytes], records_dir
         raise LogWriteError(f"{path.parent}: cannot create the folder ({exc.strerror}); nothing written") from None
     with locked(path, records_dir):
         _sweep_temp_files(path)
-        old = path.read_bytes() if path.exists() else None
+        try:
+            old = read_regular(path, MAX_FILE_BYTES, follow_links=False) if os.path.lexists(path) else None
+        except OSError as exc:
+            raise LogWriteError(f"{exc if isinstance(exc, UnsafeFile) else f'{path}: cannot read ({exc.strerror})'}"
+                                "; nothing written") from None
         _replace_atomically(path, change(old))
 
 

@@ -93,7 +93,7 @@ def test_a_cache_from_another_version_is_ignored(tmp_path, monkeypatch):
     monkeypatch.setattr("recordkit.cache.__version__", "0.0.0-other")
     from recordkit.cache import ParseCache
     cache = ParseCache(folder)
-    payload, *_ = cache.get(folder / "tansy-house.yaml", str(folder / "tansy-house.yaml"))
+    payload, *_ = cache.get(folder / "tansy-house.yaml", str(folder / "tansy-house.yaml"), 1 << 20)
     assert payload is None and cache.misses == 1
 
 

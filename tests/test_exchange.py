@@ -67,7 +67,7 @@ def test_log_a_walk_round_for_every_device_in_service(records):
     (["test-house/main/s1", "clean", "--result", "pass"], "only a test has a result"),
     (["test-house/main/old", "clean", "--date", "2021-01-01"], "after 'test-house/main/old' was retired"),
     (["test-house/main/s1", "clean", "--date", "2099-01-01"], "a date in the future"),
-    (["test-house/main/s1", "clean", "--file", "../outside.yaml"], "must be inside the records folder"),
+    (["test-house/main/s1", "clean", "--file", "../outside.yaml"], "not a file inside the records folder"),
 ])
 def test_log_refuses_bad_events_and_writes_nothing(records, args, words):
     folder = small_records(records)

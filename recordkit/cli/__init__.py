@@ -6,7 +6,7 @@ from __future__ import annotations
 import click
 
 from . import entries, events, report, site, start
-from .options import Group
+from .options import Group, show_warnings
 
 
 @click.group(cls=Group, context_settings={"help_option_names": ["-h", "--help"]})
@@ -17,6 +17,7 @@ def main() -> None:
     (-r/--records, default $RECORDKIT_RECORDS or ./records); start one with
     `recordkit init`. The local fire code and the AHJ decide; this is a
     record-keeping aid, not an inspection."""
+    show_warnings()
 
 
 for module in (start, entries, report, events, site):

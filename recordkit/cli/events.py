@@ -10,7 +10,7 @@ import click
 from ..checks import evaluate
 from ..errors import Source
 from .options import (command, EXIT_ERRORS, as_of_day, as_of_option, date_option, emit, format_option, load,
-                      load_or_exit, now, out_option, print_json, records_option, today)
+                      load_or_exit, now, out_option, print_json, records_option, today, utf8_text)
 
 file_option = click.option("--file", "log_file", metavar="PATH",
                            help="Append to this file, relative to the records folder "
@@ -84,6 +84,7 @@ def log_command(words, records_dir: Path, unit_uid, result, when, by, note, log_
     from ..model import Action, Result
 
     day, clock = split_when(when)
+    by, note = utf8_text(by, "--by"), utf8_text(note, "--note")
     if unit_uid:
         if len(words) != 1:
             raise click.UsageError("with --unit give only the ACTION, e.g. --unit tansy-house/flat-1 test")

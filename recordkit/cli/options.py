@@ -7,6 +7,7 @@ time, and an option given twice is refused unless it collects values (`multiple=
 from __future__ import annotations
 
 import json
+import logging
 import sys
 from datetime import date, datetime
 from pathlib import Path
@@ -76,6 +77,27 @@ def out_option(help_text: str, required: bool = False, folder: bool = False):
 def format_option(*choices: str, help_text: str = ""):
     return click.option("--format", "fmt", type=click.Choice(list(choices)), default=choices[0],
                         show_default=True, help=help_text or f"{choices[0]} for people, json for scripts.")
+
+
+def show_warnings() -> None:
+    """The library's warnings (e.g. waiting for another writer's lock) go to stderr as plain lines."""
+    logger = logging.getLogger("recordkit")
+    if not logger.handlers:
+        handler = logging.StreamHandler()
+        handler.setFormatter(logging.Formatter("%(message)s"))
+        logger.addHandler(handler)
+        logger.setLevel(logging.WARNING)
+        logger.propagate = False
+
+
+def utf8_text(value: str, option: str) -> str:
+    """Text from the command line that can be written to a UTF-8 record file (or a usage error)."""
+    try:
+        value.encode("utf-8")
+    except UnicodeEncodeError:
+        raise click.BadParameter("is not valid UTF-8 text (check the terminal's encoding)",
+                                 param_hint=option) from None
+    return value
 
 
 def as_of_day(value: datetime | None) -> date:
