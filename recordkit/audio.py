@@ -12,7 +12,12 @@ import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
-MAX_BYTES = 50 * 1024 * 1024   # about 4 minutes of 48 kHz stereo float: far more than a test needs
+from .wavread import AudioError, Recording, read_recording  # noqa: F401 (AudioError: part of this module's API)
+
+# 256 MB: about 20 minutes of 48 kHz 16-bit stereo, far more than a test needs. Read in blocks and kept
+# decimated, so the memory used is about 200 MB for a 10-minute recording whatever its format.
+MAX_BYTES = 256 * 1024 * 1024
+LONG = 1 << 20   # samples: past this, spectra are averaged (Welch) and filters run in blocks
 ACCEPTED = "WAV (RIFF) files: 16-, 24- or 32-bit integer PCM, or 32/64-bit float; mono or stereo"
 ALARM_BAND_HZ = (2800.0, 3500.0)   # most smoke alarms (FPRF studies; common practice)
 LOW_FREQUENCY_HZ = 520.0           # NFPA 72 §18.4.6.3 (from memory): 520 Hz ± 10 %
@@ -21,10 +26,6 @@ TIMING_TOLERANCE = 0.10            # standards give pulse-timing tolerances of a
 TIMING_FLOOR_S = 0.03              # envelope smoothing makes tighter than 30 ms meaningless
 CLIP_LEVEL, CLIP_FRACTION = 0.999, 0.001
 QUIET_DBFS, MIN_CONTRAST_DB = -55.0, 8.0
-
-
-class AudioError(Exception):
-    """The file cannot be analysed; the message says why and what is accepted."""
 
 
 @dataclass(frozen=True)
@@ -72,49 +73,10 @@ class Hearing:
                 "sample_rate": self.rate}
 
 
-def read_wav(path: Path):
-    """(rate, mono float samples in -1..1). Raises AudioError with the accepted formats."""
-    import numpy as np
-    from scipy.io import wavfile
-
-    try:
-        size = path.stat().st_size
-    except OSError as exc:
-        raise AudioError(f"{path}: cannot read ({exc.strerror})") from None
-    if size == 0:
-        raise AudioError(f"{path}: the file is empty; accepted: {ACCEPTED}")
-    if size > MAX_BYTES:
-        raise AudioError(f"{path}: {size:,} bytes is more than the {MAX_BYTES:,} accepted; trim the recording "
-                         "to the test (a few seconds)")
-    with open(path, "rb") as handle:
-        head = handle.read(12)
-    if head[:4] not in (b"RIFF", b"RF64") or head[8:12] != b"WAVE":
-        raise AudioError(f"{path}: not a WAV file; accepted: {ACCEPTED} (convert other formats first)")
-    try:
-        import warnings
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            rate, data = wavfile.read(str(path))
-    except (ValueError, EOFError, OSError, IndexError) as exc:
-        raise AudioError(f"{path}: cannot read this WAV ({exc}); accepted: {ACCEPTED}") from None
-    if data.dtype == np.uint8:
-        raise AudioError(f"{path}: 8-bit WAV is too coarse to measure; accepted: {ACCEPTED}")
-    if data.dtype.kind == "i":
-        scale = {2: 32768.0, 4: 2147483648.0}[data.dtype.itemsize]
-        samples = data.astype(np.float64) / scale
-    elif data.dtype.kind == "f":
-        samples = data.astype(np.float64)
-    else:
-        raise AudioError(f"{path}: sample type {data.dtype} is not accepted; accepted: {ACCEPTED}")
-    if samples.ndim == 2:
-        if samples.shape[1] > 2:
-            raise AudioError(f"{path}: {samples.shape[1]} channels; accepted: {ACCEPTED}")
-        samples = samples.mean(axis=1)
-    if len(samples) < rate * 0.2:
-        raise AudioError(f"{path}: shorter than 0.2 s (truncated?); record a few seconds of the alarm")
-    if not 8000 <= rate <= 192000:
-        raise AudioError(f"{path}: sample rate {rate} Hz; accepted: 8 to 192 kHz")
-    return int(rate), samples
+def read_wav(path: Path) -> Recording:
+    """The recording, mono float32, decimated to 16-32 kHz in blocks (bounded memory). Raises AudioError
+    with the accepted formats."""
+    return read_recording(path, MAX_BYTES, ACCEPTED)
 
 
 def dominant_tone(samples, rate: int, low: float = 200.0, high: float = 8000.0) -> float | None:
@@ -124,9 +86,7 @@ def dominant_tone(samples, rate: int, low: float = 200.0, high: float = 8000.0) 
 
     if len(samples) < 16 or not np.any(samples):
         return None
-    window = np.hanning(len(samples))
-    spectrum = np.abs(np.fft.rfft(samples * window))
-    freqs = np.fft.rfftfreq(len(samples), 1 / rate)
+    freqs, spectrum = _spectrum(samples, rate)
     band = (freqs >= low) & (freqs <= min(high, rate / 2 - 1))
     if not band.any():
         return None
@@ -136,7 +96,23 @@ def dominant_tone(samples, rate: int, low: float = 200.0, high: float = 8000.0) 
         offset = 0.5 * (a - c) / (a - 2 * b + c) if (a - 2 * b + c) != 0 else 0.0
     else:
         offset = 0.0
-    return float((index + offset) * rate / len(samples))
+    return float(freqs[index] + offset * (freqs[1] - freqs[0]))
+
+
+def _spectrum(samples, rate: float):
+    """(frequencies, magnitudes): one Hann-windowed FFT, or for a long recording the average of
+    overlapping 2^15-sample ones (Welch), so memory stays small; both peak at the tone."""
+    import numpy as np
+    from scipy import signal
+
+    if len(samples) <= LONG:
+        return np.fft.rfftfreq(len(samples), 1 / rate), np.abs(np.fft.rfft(samples * np.hanning(len(samples))))
+    total, weight, freqs = 0.0, 0, None
+    for start in range(0, len(samples) - (1 << 15) + 1, LONG):  # block by block: Welch's own segment
+        block = samples[start:start + LONG]                       # array would hold the whole recording
+        freqs, power = signal.welch(block, fs=rate, window="hann", nperseg=1 << 15)
+        total, weight = total + power * len(block), weight + len(block)
+    return freqs, np.sqrt(total / weight)
 
 
 FRAME_S = 0.001   # envelope resolution
@@ -150,11 +126,18 @@ def _envelope(samples, rate: int, tone_hz: float):
 
     low, high = tone_hz * 0.8, min(tone_hz * 1.25, rate / 2 * 0.95)
     sos = signal.butter(4, [low, high], btype="bandpass", fs=rate, output="sos")
-    band = signal.sosfiltfilt(sos, samples)
     width = max(1, int(rate * SMOOTH_S))
-    power = np.convolve(band ** 2, np.ones(width) / width, mode="same")
     step = max(1, int(rate * FRAME_S))
-    return 10 * np.log10(power[::step] + 1e-20), step / rate
+    margin = 1 << 14  # beyond the filters' reach: blocks joined this way match one pass over the whole
+    pieces = []
+    for start in range(0, len(samples), LONG):  # in blocks, so a long recording never doubles in memory
+        lo, hi = max(0, start - margin), min(len(samples), start + LONG + margin)
+        band = signal.sosfiltfilt(sos, samples[lo:hi])
+        power = np.convolve(band ** 2, np.ones(width) / width, mode="same")
+        first = start + (-start) % step  # keep the frames on the global 1 ms grid
+        pieces.append(power[first - lo:min(start + LONG, len(samples)) - lo:step])
+    power = np.concatenate(pieces)
+    return 10 * np.log10(power + 1e-20), step / rate
 
 
 def tonality_db(samples, rate: int, tone_hz: float) -> float:
@@ -162,9 +145,9 @@ def tonality_db(samples, rate: int, tone_hz: float) -> float:
     (tens of dB); noise does not."""
     import numpy as np
 
-    spectrum = np.abs(np.fft.rfft(samples * np.hanning(len(samples)))) ** 2
-    freqs = np.fft.rfftfreq(len(samples), 1 / rate)
-    near = np.abs(freqs - tone_hz) <= max(5.0, 2 * rate / len(samples))
+    freqs, magnitude = _spectrum(samples, rate)
+    spectrum = magnitude ** 2
+    near = np.abs(freqs - tone_hz) <= max(5.0, 2 * (freqs[1] - freqs[0]))
     band = (freqs >= 200) & (freqs <= min(8000, rate / 2 - 1))
     return float(10 * np.log10(spectrum[near].max() / (np.median(spectrum[band]) + 1e-30)))
 
@@ -231,12 +214,18 @@ def match_pattern(pulses: list[tuple[float, float]], duration: float) -> tuple[s
     return "none", {}
 
 
-def analyse(samples, rate: int, calibration_db: float | None = None) -> Hearing:
+def analyse(samples, rate: float, calibration_db: float | None = None, *, peak: float | None = None,
+            clipped_fraction: float | None = None, source_rate: int | None = None) -> Hearing:
+    """What a recording holds. `peak` and `clipped_fraction` come from the original samples when these
+    were decimated (filtering changes peaks)."""
     import numpy as np
 
     duration = len(samples) / rate
-    peak = float(np.max(np.abs(samples))) if len(samples) else 0.0
-    clipped = bool(np.mean(np.abs(samples) >= CLIP_LEVEL) > CLIP_FRACTION)
+    if peak is None:
+        peak = float(np.max(np.abs(samples))) if len(samples) else 0.0
+    if clipped_fraction is None:
+        clipped_fraction = float(np.mean(np.abs(samples) >= CLIP_LEVEL)) if len(samples) else 0.0
+    clipped = clipped_fraction > CLIP_FRACTION
     tone = dominant_tone(samples, rate)
     pulses: list[tuple[float, float]] = []
     level = contrast = stability = None
@@ -255,12 +244,14 @@ def analyse(samples, rate: int, calibration_db: float | None = None) -> Hearing:
         if pulses:
             pattern, errors = match_pattern(pulses, duration)
             on_samples = np.concatenate([samples[int(a * rate):int(b * rate)] for a, b in pulses])
-            level = float(10 * np.log10(np.mean(on_samples ** 2) + 1e-20))
+            level = float(10 * np.log10(np.mean(np.square(on_samples, dtype=np.float64)) + 1e-20))
             tone = dominant_tone(on_samples, rate) or tone
             if tonality_db(on_samples, rate, tone) < MIN_TONALITY_DB:
                 pattern, errors = "none", {}  # noise, speech or music: no steady tone to call an alarm
             frame = int(0.05 * rate)
-            tones = [dominant_tone(on_samples[i:i + frame], rate) for i in range(0, len(on_samples) - frame, frame)]
+            starts = range(0, len(on_samples) - frame, frame)
+            starts = starts[::max(1, len(starts) // 400)]  # at most about 400 frames: enough for a spread
+            tones = [dominant_tone(on_samples[i:i + frame], rate) for i in starts]
             tones = [t for t in tones if t]
             stability = float(np.std(tones)) if len(tones) > 1 else None
         step = max(1, int(0.02 / frame_s))
@@ -278,7 +269,7 @@ def analyse(samples, rate: int, calibration_db: float | None = None) -> Hearing:
         verdict = f"alarm heard: {pattern} at {_khz(tone)}"
     else:
         verdict = "not an alarm pattern"
-    return Hearing(duration, rate, tone, stability, band, pattern, errors, pulses, level,
+    return Hearing(duration, int(source_rate or rate), tone, stability, band, pattern, errors, pulses, level,
                    20 * math.log10(peak) if peak > 0 else None, contrast, clipped, estimated, verdict, alarm,
                    envelope_points)
 
@@ -298,5 +289,6 @@ def _khz(tone: float | None) -> str:
 
 
 def hear_file(path: Path, calibration_db: float | None = None) -> Hearing:
-    rate, samples = read_wav(path)
-    return analyse(samples, rate, calibration_db)
+    recording = read_wav(path)
+    return analyse(recording.samples, recording.rate, calibration_db, peak=recording.peak,
+                   clipped_fraction=recording.clipped_fraction, source_rate=recording.source_rate)

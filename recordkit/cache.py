@@ -36,7 +36,7 @@ from .safeio import read_regular
 
 EVIDENCE_PATTERN = re.compile(r"^sha256:[0-9a-f]{64}$")
 CACHE_DIR = ".recordkit/cache"  # inside the tool's own hidden folder (see logbook.WORK_DIR)
-FORMAT = 7  # 7: keyed checksums, rooms with appliances, serves, flue, habitable
+FORMAT = 8  # 8: keyed checksums, rooms with appliances, serves, flue, habitable; export detection
 CLEAN_FILE = "clean.json"
 RACY_SECONDS = 2.0
 MAX_ENTRY_BYTES = 512 * 1024 * 1024  # an entry is smaller than the record file it stands for
@@ -259,6 +259,14 @@ class ParseCache:
             return memo["key"] == key and date.fromisoformat(memo["newest_event"]) <= as_of
         except (OSError, ValueError, KeyError, TypeError):
             return False
+
+    # ---- small derived results kept by a key (e.g. a recording's analysis by its hash and size) ----------
+    def note(self, kind: str, key: str) -> Any:
+        entry = self._read(self._entry_path(f"{kind}\0{key}"))
+        return entry["value"] if isinstance(entry, dict) and entry.get("key") == f"{kind}\0{key}" else None
+
+    def put_note(self, kind: str, key: str, value: Any) -> None:
+        self._write(self._entry_path(f"{kind}\0{key}"), {"key": f"{kind}\0{key}", "value": value})
 
     def mark_clean(self, key: str, newest_event: date) -> None:
         self._write(self.folder / CLEAN_FILE, {"key": key, "newest_event": newest_event.isoformat()})

@@ -54,3 +54,29 @@ def keep(records_dir: Path, recording: Path) -> str:
     finally:
         os.close(folder)
     return reference
+
+
+def hearing_of(records_dir: Path, reference: str):
+    """The analysis of a kept recording, from the cache when this very file was analysed before (by its
+    hash, size and time); analysing a long recording takes seconds, and a build shows every one.
+    Raises AudioError when the recording is missing or unusable."""
+    import dataclasses
+
+    from .audio import AudioError, Hearing, hear_file
+    from .cache import ParseCache
+
+    path = evidence_path(records_dir, reference)
+    try:
+        info = os.stat(path)
+    except OSError as exc:
+        raise AudioError(f"{path}: the kept recording is missing ({exc.strerror})") from None
+    cache, key = ParseCache(records_dir), f"{reference}:{info.st_size}:{info.st_mtime_ns}"
+    known = cache.note("hearing", key)
+    if isinstance(known, dict):
+        try:
+            return Hearing(**known)
+        except TypeError:
+            pass  # from another version of the analysis: analyse again
+    hearing = hear_file(path)
+    cache.put_note("hearing", key, dataclasses.asdict(hearing))
+    return hearing

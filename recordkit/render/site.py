@@ -290,14 +290,13 @@ class SiteBuilder:
 
     def _evidence_html(self, events) -> str:
         """What each recorded test sounded like: frequency, pattern, level and the envelope."""
-        from ..audio import AudioError, hear_file
-        from ..evidence import evidence_path
+        from ..audio import AudioError
+        from ..evidence import hearing_of
 
         rows = []
         for event in (e for e in events if e.evidence):
-            path = evidence_path(Path(self.loaded.root), event.evidence)
             try:
-                h = hear_file(path)
+                h = hearing_of(Path(self.loaded.root), event.evidence)
             except AudioError as exc:
                 rows.append(f"<li>{event.date}: recording not readable ({md_text(str(exc))})</li>")
                 continue
