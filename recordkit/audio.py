@@ -12,7 +12,9 @@ import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .wavread import AudioError, Recording, read_recording  # noqa: F401 (AudioError: part of this module's API)
+from .wavread import AudioError, Recording, read_recording
+
+__all__ = ["AudioError", "Hearing", "analyse", "hear_file", "read_wav"]
 
 # 256 MB: about 20 minutes of 48 kHz 16-bit stereo, far more than a test needs. Read in blocks and kept
 # decimated, so the memory used is about 200 MB for a 10-minute recording whatever its format.

@@ -16,7 +16,8 @@ from . import model as m
 
 # A cell may be as long as a record file may be (the csv module's default stops at 131,072 characters and
 # raised out of every command).
-csv.field_size_limit(64 * 1024 * 1024)
+MAX_CSV_BYTES = 64 * 1024 * 1024
+csv.field_size_limit(MAX_CSV_BYTES)
 
 CSV_COLUMNS = ("date", "device", "action", "result", "by", "note")
 REQUIRED_COLUMNS = ("date", "device", "action")

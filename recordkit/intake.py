@@ -16,7 +16,6 @@ from .errors import Source
 from .loader import Loaded, event_problems, unread_reason
 from .logbook import NewEvent, append_events, default_log_file
 from .safeio import read_regular
-from .yamltree import MAX_FILE_BYTES
 
 CSV_COLUMNS = csvlog.CSV_COLUMNS
 
@@ -79,7 +78,7 @@ def read_csv(path: Path, loaded: Loaded, today: date, dayfirst: bool = False) ->
     result = CsvImport()
     shown = str(path)
     try:
-        text = read_regular(path, MAX_FILE_BYTES).decode("utf-8-sig")
+        text = read_regular(path, csvlog.MAX_CSV_BYTES).decode("utf-8-sig")
     except UnicodeDecodeError:
         result.problems.append(f"{shown}:1: not UTF-8 text; save the sheet as 'CSV UTF-8'")
         return result

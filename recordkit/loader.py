@@ -147,7 +147,8 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
         shown = str(path)
         is_policy = path.parent == root and path.name == POLICY_FILE
         try:
-            payload, data, stat, digest = parse_cache.get(path, shown, MAX_FILE_BYTES)
+            limit = csvlog.MAX_CSV_BYTES if path.suffix == CSV_SUFFIX else MAX_FILE_BYTES
+            payload, data, stat, digest = parse_cache.get(path, shown, limit)
             newest = max(newest, stat.st_mtime)
             digests.append((shown, digest))
             if payload is not None and not is_policy and builder.add_cached(payload, shown):

@@ -136,6 +136,9 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
 
     def on_files(self, files: Files, /, *, config: MkDocsConfig) -> Files:
         for page in self.pages.values():
+            parts = page.src_uri.split("/")
+            if page.src_uri.startswith("/") or any(part in ("", ".", "..") for part in parts):
+                raise PluginError(f"recordkit: refused a page path outside the site: {page.src_uri!r}")
             if files.get_file_from_path(page.src_uri):
                 raise PluginError(f"recordkit: {page.src_uri} is generated from the records; "
                                   f"remove the hand-written file of that name from {config.docs_dir}")

@@ -15,6 +15,8 @@ from dateutil.relativedelta import relativedelta
 
 from .errors import Problems, Source
 
+# 50 years in each unit: longer than any alarm lives, and short enough that no date sum can overflow.
+MAX_INTERVAL = {"days": 18262, "weeks": 2609, "months": 600, "years": 50}
 _INTERVAL = re.compile(r"^\s*(\d+)\s*(day|week|month|year)s?\s*$")
 
 
@@ -37,7 +39,11 @@ class Interval:
         if not match:
             raise ValueError(f"expected an interval like '1 month', '12 months', '7 days' or '10 years', "
                              f"got {text!r}")
-        return cls(int(match.group(1)), match.group(2) + "s")
+        interval = cls(int(match.group(1)), match.group(2) + "s")
+        if interval.amount > MAX_INTERVAL[interval.unit]:
+            raise ValueError(f"{interval} is longer than any alarm rule needs (at most "
+                             f"{MAX_INTERVAL[interval.unit]} {interval.unit})")
+        return interval
 
 
 @dataclass(frozen=True)

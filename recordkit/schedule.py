@@ -36,7 +36,11 @@ _WORDS = {State.OVERDUE: ("‼", "Overdue"), State.DUE_SOON: ("◔", "Due soon")
 
 
 def add(start: date, interval: Interval) -> date:
-    return start + interval.delta
+    """start + interval; total: a sum past the calendar's end is its last day (never an exception)."""
+    try:
+        return start + interval.delta
+    except (OverflowError, ValueError):
+        return date.max
 
 
 def state_of(due: date | None, as_of: date, warn_before: Interval) -> State:
