@@ -4,7 +4,8 @@
 
 Runs: structured mutations of the demo records and random YAML text through the loader (must load or
 report file:line problems, never raise); concurrent writers on one log; writers killed at random moments;
-a failure injected at each step of a write. The table between the reliability markers in README.md is
+a failure injected at each step of a write; and the attacks in bench/attacks.py (output folders, pipes and
+links, the memory the size limits imply, forged cache entries, hostile and damaged recordings). The table between the reliability markers in README.md is
 replaced with this run's figures.
 """
 from __future__ import annotations
@@ -31,6 +32,8 @@ from recordkit.loader import load_records  # noqa: E402
 from recordkit.model import Action  # noqa: E402
 from recordkit.yamltree import read_yaml  # noqa: E402
 from tests.fuzzing import SNIPPETS, write_mutant  # noqa: E402
+
+import attacks  # noqa: E402  (bench/attacks.py, beside this script)
 
 AS_OF = date(2026, 12, 1)
 START, END = "<!-- reliability:start -->", "<!-- reliability:end -->"
@@ -161,6 +164,19 @@ def main(quick: bool) -> None:
     rows.append(("writers killed (SIGKILL) at random moments", figure, "file always parses", ok))
     figure, ok = injected_faults()
     rows.append(("ENOSPC injected at each fsync/rename of a write", figure, "old file, or old + new", ok))
+    figure, ok = attacks.output_guard()
+    rows.append(("`build -o` at the records, their parent, a folder inside, the pages", figure,
+                 "refused, every record byte kept", ok))
+    figure, ok = attacks.non_regular_files()
+    rows.append(("FIFOs and a link to /dev/zero as records, cache entries, import and recording", figure,
+                 "no hang, no traceback", ok))
+    rows += attacks.size_limits()
+    figure, ok = attacks.forged_cache(int(200 * scale) or 20)
+    rows.append(("cache entries with bytes changed", figure, "same records as a cold parse", ok))
+    figure, ok = attacks.hostile_recordings(int(300 * scale) or 30)
+    rows.append(("recordings with damaged headers and bodies", figure, "a message, never another error", ok))
+    figure, ok = attacks.damaged_evidence()
+    rows.append(("a kept recording truncated after logging", figure, "the site still builds", ok))
     table = ["| what was tried | how much | what was checked | result |", "|---|---|---|---|"]
     table += [f"| {what} | {much} | {checked} | {'pass' if ok else 'FAIL'} |" for what, much, checked, ok in rows]
     section = f"{START}\n_Last run: {date.today()} by `bench/reliability.py`._\n\n" + "\n".join(table) + f"\n{END}"

@@ -74,8 +74,8 @@ def hearing_of(records_dir: Path, reference: str):
     known = cache.note("hearing", key)
     if isinstance(known, dict):
         try:
-            return Hearing(**known)
-        except TypeError:
+            return Hearing(**{**known, "pulses": [tuple(pulse) for pulse in known["pulses"]]})
+        except (TypeError, KeyError):
             pass  # from another version of the analysis: analyse again
     hearing = hear_file(path)
     cache.put_note("hearing", key, dataclasses.asdict(hearing))

@@ -21,7 +21,7 @@ from . import csvlog
 from . import model as m
 from .cache import ParseCache, decode_events, decode_property, encode_events, encode_property
 from .errors import Problem, Problems, Source
-from .fields import Fields
+from .fields import MAX_LIFE_YEARS, Fields
 from .rules import Policy, apply_policy_file
 from .safeio import UnsafeFile
 from .yamltree import MAX_FILE_BYTES, read_yaml
@@ -390,7 +390,7 @@ class _Builder:
         removed = f.day("removed")
         if removed and installed and removed < installed:
             f.error("removed", f"removed ({removed}) is before installed ({installed})")
-        life = f.number("life_years", integer=True, minimum=1)
+        life = f.number("life_years", integer=True, minimum=1, maximum=MAX_LIFE_YEARS)
         listens = [self._listen(item, path, ln) for item, ln in f.items("listens_to")]
         if kind is m.Kind.LISTENING_NODE and not listens and f.ok:
             f.error(None, "a listening node needs 'listens_to': the alarm device ids it is meant to hear")
