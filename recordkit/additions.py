@@ -8,7 +8,6 @@ lines to add by hand.
 """
 from __future__ import annotations
 
-import json
 import re
 from dataclasses import dataclass
 from datetime import date
@@ -19,7 +18,7 @@ import yaml
 from .errors import Problems
 from .loader import Loaded, file_problems
 from .logbook import update_file
-from .yamltree import plain, read_yaml
+from .yamltree import plain, quoted, read_yaml
 
 LIST_OF = {"unit": "units", "room": "rooms", "device": "devices"}
 _PLAIN = re.compile(r"[a-z][a-z0-9_-]*|\d{4}-\d{2}(-\d{2})?")
@@ -53,7 +52,7 @@ def scalar(value) -> str:
     text = str(value)
     if _PLAIN.fullmatch(text) and text not in _YAML_WORDS:
         return text
-    return json.dumps(text, ensure_ascii=False)  # a JSON string is a valid YAML double-quoted string
+    return quoted(text)
 
 
 def entry_lines(data: dict, dash: int, offset: int = 2, flow: bool = False) -> list[str]:

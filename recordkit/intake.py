@@ -6,8 +6,10 @@ written.
 """
 from __future__ import annotations
 
+import csv
+import io
 from dataclasses import dataclass, field
-from datetime import date
+from datetime import date, time
 from pathlib import Path
 
 from . import csvlog
@@ -29,10 +31,20 @@ def as_model_event(event: NewEvent, source: Source) -> m.Event:
                    event.when, event.evidence)
 
 
-def check_new_events(loaded: Loaded, events: list[tuple[NewEvent, Source]], today: date) -> list[str]:
-    """Problems with new events, each as 'source: message'."""
-    return [f"{source}: {message}" for event, source in events
-            for message in event_problems(as_model_event(event, source), loaded.portfolio, today)]
+def check_new_events(loaded: Loaded, events: list[tuple[NewEvent, Source]], today: date,
+                     again: bool = False) -> list[str]:
+    """Problems with new events, each as 'source: message'; without `again`, an event already recorded
+    (the same action on the device that day, or that time when given) is one."""
+    recorded = set() if again else {e.record_key for e in loaded.portfolio.events}
+    problems = []
+    for event, source in events:
+        problems += [f"{source}: {message}"
+                     for message in event_problems(as_model_event(event, source), loaded.portfolio, today)]
+        if event.record_key in recorded:
+            when = f"{event.date} {event.when}" if event.when else str(event.date)
+            problems.append(f"{source}: already recorded: {event.action} of {event.device} on {when} "
+                            "(give --again if it really happened twice)")
+    return problems
 
 
 def unit_devices(loaded: Loaded, unit_uid: str, when: date) -> list[str]:
@@ -54,14 +66,16 @@ def target_file(records_dir: Path, named: str | None, when: date) -> Path:
     return path
 
 
-def write_events(records_dir: Path, events: list[NewEvent], named: str | None) -> dict[Path, int]:
-    """Append events, one atomic append per target file. Returns how many went where."""
+def write_events(records_dir: Path, events: list[NewEvent], named: str | None,
+                 again: bool = False) -> dict[Path, int]:
+    """Append events, one atomic append per target file. Returns how many went where: without `again`,
+    an event the file came to hold meanwhile (a concurrent import of the same sheet) is left out, under
+    the file's lock."""
     by_file: dict[Path, list[NewEvent]] = {}
     for event in events:
         by_file.setdefault(target_file(records_dir, named, event.date), []).append(event)
-    for path, batch in by_file.items():
-        append_events(path, batch, records_dir)
-    return {path: len(batch) for path, batch in by_file.items()}
+    return {path: len(append_events(path, batch, records_dir, skip_recorded=not again))
+            for path, batch in by_file.items()}
 
 
 # ---- CSV ----------------------------------------------------------------------------------
@@ -74,7 +88,9 @@ class CsvImport:
     duplicates: int = 0
 
 
-def read_csv(path: Path, loaded: Loaded, today: date, dayfirst: bool = False) -> CsvImport:
+def read_csv(path: Path, loaded: Loaded, today: date, order: str | None = None) -> CsvImport:
+    """A spreadsheet's rows as checked events. Slashed dates are read in `order` ('day' or 'month' first),
+    or in the order the whole sheet shows; a sheet that cannot show it is refused, never guessed."""
     result = CsvImport()
     shown = str(path)
     try:
@@ -88,13 +104,21 @@ def read_csv(path: Path, loaded: Loaded, today: date, dayfirst: bool = False) ->
     if problem := csvlog.header_problem(header):
         result.problems.append(f"{shown}:1: {problem}")
         return result
-    existing = {(e.date, e.device, e.action, e.result, e.by, e.note) for e in loaded.portfolio.events}
+    body = list(body)
+    if order is None:
+        order, problem = csvlog.date_order([cells["date"] for _, cells in body])
+        if problem:
+            first = next((n for n, cells in body if csvlog.is_slashed(cells["date"])), 1)
+            result.problems.append(f"{shown}:{first}: {problem}")
+            result.bad_rows.update(n for n, _ in body)
+            return result
+    existing = {e.record_key for e in loaded.portfolio.events}
     for row_number, cells in body:
         source = Source(shown, row_number)
-        row, messages = csvlog.read_row(cells, dayfirst)
+        row, messages = csvlog.read_row(cells, order)
         event = NewEvent(*row) if row else None
         if event:
-            key = (event.date, event.device, event.action, event.result, event.by, event.note)
+            key = event.record_key
             if key in existing:
                 result.duplicates += 1
                 continue
@@ -108,10 +132,18 @@ def read_csv(path: Path, loaded: Loaded, today: date, dayfirst: bool = False) ->
     return result
 
 
+def csv_text(rows: list[list[str]]) -> str:
+    """Rows as CSV text (RFC 4180 line ends, so a cell holding a lone CR or LF is quoted and reads back)."""
+    buffer = io.StringIO()
+    csv.writer(buffer, lineterminator="\r\n").writerows(rows)
+    return buffer.getvalue()
+
+
 def events_csv_rows(portfolio: m.Portfolio) -> list[list[str]]:
     """Every event as CSV rows with the import's columns (so an export imports back)."""
     rows = [list(CSV_COLUMNS)]
-    for event in sorted(portfolio.events, key=lambda e: e.date):
-        rows.append([event.date.isoformat(), event.device, str(event.action),
-                     str(event.result) if event.result else "", event.by, event.note])
+    for event in sorted(portfolio.events, key=lambda e: (e.date, e.time or time.min)):
+        moment = f"{event.date} {event.time.isoformat()}" if event.time else event.date.isoformat()
+        rows.append([moment, event.device, str(event.action), str(event.result) if event.result else "",
+                     csvlog.guard(event.by), csvlog.guard(event.note), event.evidence])
     return rows

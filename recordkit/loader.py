@@ -288,7 +288,7 @@ class _Builder:
                 self.problems.add(source, f"event: cannot read this row ({'; '.join(messages)})")
                 continue
             self.events.append(m.Event(row.date, self._shared(row.device), row.action, path, line, row.result,
-                                       self._shared(row.by), self._shared(row.note)))
+                                       self._shared(row.by), self._shared(row.note), row.when, row.evidence))
 
     # ---- properties, units, rooms, devices ----------------------------------------------
     def _property(self, tree: Any, path: str, line: int) -> m.Property | None:

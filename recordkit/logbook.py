@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import errno
 import fcntl
-import json
 import logging
 import os
 import time as time_module
@@ -25,7 +24,7 @@ from typing import Callable, Iterator
 from . import model as m
 from .errors import Problems
 from .safeio import UnsafeFile, read_regular
-from .yamltree import MAX_FILE_BYTES, YList, YMap, plain, read_yaml
+from .yamltree import MAX_FILE_BYTES, YList, YMap, plain, quoted, read_yaml
 
 
 log = logging.getLogger("recordkit")
@@ -50,6 +49,10 @@ class NewEvent:
     evidence: str = ""
     when: "time | None" = None   # time of day, when known
 
+    @property
+    def record_key(self) -> tuple:
+        return m.record_key(self.date, self.when, self.device, self.action, self.result, self.by, self.note)
+
     def as_data(self) -> dict:
         data = {"date": self._date_text(), "device": self.device, "action": str(self.action)}
         if self.result:
@@ -72,9 +75,9 @@ class NewEvent:
         if self.result:
             parts.append(f"result: {self.result}")
         if self.by:
-            parts.append(f"by: {json.dumps(self.by, ensure_ascii=False)}")
+            parts.append(f"by: {quoted(self.by)}")
         if self.note:
-            parts.append(f"note: {json.dumps(self.note, ensure_ascii=False)}")
+            parts.append(f"note: {quoted(self.note)}")
         if self.evidence:
             parts.append(f"evidence: {self.evidence}")
         return "{" + ", ".join(parts) + "}"
@@ -164,10 +167,37 @@ def update_file(path: Path, change: Callable[[bytes | None], bytes], records_dir
         _replace_atomically(path, change(old))
 
 
-def append_events(path: Path, events: list[NewEvent], records_dir: Path | None = None) -> None:
-    """Append events to a log file (created if missing). Raises LogWriteError or MaybeWritten."""
+def append_events(path: Path, events: list[NewEvent], records_dir: Path | None = None,
+                  skip_recorded: bool = False) -> list[NewEvent]:
+    """Append events to a log file (created if missing); returns those appended. With `skip_recorded`, an
+    event the file already holds (by `m.record_key`, checked under the lock, so concurrent imports of one
+    sheet record each row once) is left out. Raises LogWriteError or MaybeWritten."""
+    written: list[NewEvent] = []
+
+    def change(old: bytes | None) -> bytes:
+        fresh = events
+        if skip_recorded and old and old.strip():
+            held = {_record_key_of(item) for item in (_parse(old, path).get("events") or [])}
+            fresh = [e for e in events if e.record_key not in held]
+        written[:] = fresh
+        return _appended(old, path, fresh) if fresh else old
+
     if events:
-        update_file(path, lambda old: _appended(old, path, events), records_dir)
+        update_file(path, change, records_dir)
+    return written
+
+
+def _record_key_of(item) -> tuple | None:
+    """The record key of an event as a log file holds it (None for one that does not read)."""
+    from .fields import parse_date_time
+
+    try:
+        day, clock = parse_date_time(item["date"])
+        action, result = m.Action(item["action"]), m.Result(item["result"]) if item.get("result") else None
+        return m.record_key(day, clock, str(item["device"]), action, result, str(item.get("by") or ""),
+                            str(item.get("note") or ""))
+    except (TypeError, KeyError, ValueError):
+        return None
 
 
 def _appended(old: bytes | None, path: Path, events: list[NewEvent]) -> bytes:

@@ -115,6 +115,19 @@ class Result(StrEnum):
     FAIL = "fail"
 
 
+# Done at most once a day to one device, unless the user says it really happened twice (`--again`):
+# a second battery change the same day is far likelier a repeated entry than a second battery.
+ONCE_A_DAY = frozenset({Action.TEST, Action.BATTERY, Action.REPLACE, Action.CLEAN, Action.INSPECT})
+
+
+def record_key(day: date, clock, device: str, action: Action, result, by: str, note: str) -> tuple:
+    """Two events with one key are one record entered twice: the same action on the same device on the
+    same day (and time, when given); notes and heard reports are told apart by their text as well."""
+    if action in ONCE_A_DAY:
+        return (day, clock, device, action)
+    return (day, clock, device, action, result, by, note)
+
+
 _NO_TIME = time_of_day.min
 
 
@@ -219,6 +232,10 @@ class Event(NamedTuple):
     note: str = ""
     time: time_of_day | None = None   # time of day, when recorded (needed to match a node's report to a test)
     evidence: str = ""         # "sha256:<hex>" of a recording kept under records/evidence/
+
+    @property
+    def record_key(self) -> tuple:
+        return record_key(self.date, self.time, self.device, self.action, self.result, self.by, self.note)
 
     @property
     def source(self) -> Source:

@@ -2,13 +2,13 @@
 policy file of commented examples, and a .gitignore. Text only; the CLI writes it (never over a file)."""
 from __future__ import annotations
 
-import json
 
 import jinja2
 
 from .fields import ID_PATTERN
 from .render.labels import STARTER
 from .rules import coverage_set_names
+from .yamltree import quoted
 
 PLACEHOLDER_ID = "my-property"
 PLACEHOLDER_NAME = "My property"
@@ -23,8 +23,8 @@ class StarterError(ValueError):
 
 
 def yaml_text(value: str) -> str:
-    """Free text as a YAML scalar: a JSON string is also a valid YAML double-quoted string."""
-    return json.dumps(value, ensure_ascii=False)
+    """Free text as a YAML scalar that reads back as exactly this text."""
+    return quoted(value)
 
 
 def starter_files(property_id: str | None, name: str | None, address: str | None, rules: str,

@@ -98,6 +98,19 @@ class YList(list):
     item_lines: list
 
 
+# Characters a YAML reader refuses raw (DEL, C1 controls, non-characters) or reads as a line break inside a
+# quoted string (NEL, U+2028, U+2029): written as escapes so the text reads back exactly.
+_UNWRITABLE = re.compile("[\x7f-\x9f\u2028\u2029\ufffe\uffff]")
+
+
+def quoted(text: str) -> str:
+    """Text as a one-line YAML double-quoted string that reads back as exactly this text. A JSON string is
+    a valid YAML double-quoted string; the characters YAML reads differently are escaped as well."""
+    import json
+
+    return _UNWRITABLE.sub(lambda m: f"\\u{ord(m.group()):04x}", json.dumps(text, ensure_ascii=False))
+
+
 def plain(value: Any) -> Any:
     """A located tree as plain dicts and lists (for comparing what two texts hold)."""
     if isinstance(value, dict):

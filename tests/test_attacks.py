@@ -2,7 +2,6 @@
 guard is tested in test_command_line.py: build refuses the records folder, its parent and a folder inside.)"""
 from __future__ import annotations
 
-import json
 import os
 import shutil
 import struct
@@ -19,7 +18,7 @@ from recordkit.loader import load_records
 from recordkit.render.escape import md_text
 from recordkit.yamltree import read_yaml
 
-from .conftest import DEMO_AS_OF, DEMO_RECORDS, HOUSE, device_yaml, run_cli, write_records
+from .conftest import DEMO_AS_OF, DEMO_RECORDS, HOUSE, device_yaml, run_cli
 
 AS_OF = DEMO_AS_OF.isoformat()
 SMOKE = device_yaml(id="s1", kind="smoke", room="hall", power="sealed", manufactured="2024-01",

@@ -22,13 +22,13 @@ def register(main: click.Group) -> None:
         main.add_command(command_)
 
 
-def write_or_exit(records_dir: Path, events, log_file: str | None) -> None:
+def write_or_exit(records_dir: Path, events, log_file: str | None, again: bool = False) -> None:
     """Append events (checked already); exit 1 with the reason when nothing (or maybe something) was written."""
     from ..intake import IntakeError, write_events
     from ..logbook import LogWriteError, MaybeWritten
 
     try:
-        written = write_events(records_dir, events, log_file)
+        written = write_events(records_dir, events, log_file, again)
     except (IntakeError, LogWriteError) as exc:
         click.echo(f"Not written: {exc}", err=True)
         sys.exit(EXIT_ERRORS)
@@ -37,13 +37,15 @@ def write_or_exit(records_dir: Path, events, log_file: str | None) -> None:
         sys.exit(EXIT_ERRORS)
     for path, count in written.items():
         click.echo(f"Appended {count} event(s) to {path}")
+    if (left := len(events) - sum(written.values())) > 0:
+        click.echo(f"{left} event(s) were recorded meanwhile by another command and were left out", err=True)
 
 
-def refuse_problems(loaded, events, day: date) -> None:
-    """Exit 1, writing nothing, when any new event breaks the records' rules."""
+def refuse_problems(loaded, events, day: date, again: bool = False) -> None:
+    """Exit 1, writing nothing, when any new event breaks the records' rules or is recorded already."""
     from ..intake import check_new_events
 
-    problems = check_new_events(loaded, [(e, Source(e.device, 0)) for e in events], day)
+    problems = check_new_events(loaded, [(e, Source(e.device, 0)) for e in events], day, again)
     if problems:
         for problem in problems:
             click.echo(f"Not written: {problem}", err=True)
@@ -67,8 +69,10 @@ def split_when(when: datetime | None) -> tuple[date, object]:
 @date_option("When it was done (default: today); a time of day may follow. Not in the future.")
 @click.option("--by", default="", help="Who did it.")
 @click.option("--note", default="", help="A note, e.g. what was done about a failure.")
+@click.option("--again", is_flag=True, help="Record it even though the same action on the device is recorded "
+              "for that day (and time): it really happened twice.")
 @file_option
-def log_command(words, records_dir: Path, unit_uid, result, when, by, note, log_file) -> None:
+def log_command(words, records_dir: Path, unit_uid, result, when, by, note, again, log_file) -> None:
     """Record a test, battery change, replacement, cleaning, inspection or note.
 
     DEVICE is property/unit/device; ACTION is test, battery, replace, clean,
@@ -107,8 +111,8 @@ def log_command(words, records_dir: Path, unit_uid, result, when, by, note, log_
         raise click.UsageError(f"no device in service in '{unit_uid}' on {day}")
     events = [NewEvent(day, uid, action, Result(result) if result else None, by, note, when=clock)
               for uid in devices]
-    refuse_problems(loaded, events, today())
-    write_or_exit(records_dir, events, log_file)
+    refuse_problems(loaded, events, today(), again)
+    write_or_exit(records_dir, events, log_file, again)
     reloaded = load(records_dir, today())
     findings = [f for f in evaluate(reloaded.portfolio, reloaded.policy, today()) if f.device in devices]
     for event in events:
@@ -122,15 +126,19 @@ def log_command(words, records_dir: Path, unit_uid, result, when, by, note, log_
 @command("import")
 @click.argument("csv_file", type=click.Path(exists=True, dir_okay=False, path_type=Path))
 @records_option
-@click.option("--dayfirst", is_flag=True, help="Read 01/12/2026 as 1 December (default: as January 12).")
+@click.option("--dayfirst", "order", flag_value="day", help="Slashed dates are day first: 01/12/2026 is 1 December.")
+@click.option("--monthfirst", "order", flag_value="month", help="Slashed dates are month first: 01/12/2026 is "
+              "12 January. Without either, the sheet's own dates must show which (a part above 12).")
 @click.option("--skip-bad", is_flag=True, help="Import the good rows even when some rows are bad.")
 @click.option("--dry-run", is_flag=True, help="Show what would be added; write nothing.")
 @file_option
-def import_command(csv_file: Path, records_dir: Path, dayfirst, skip_bad, dry_run, log_file) -> None:
+def import_command(csv_file: Path, records_dir: Path, order, skip_bad, dry_run, log_file) -> None:
     """Import events from a spreadsheet's CSV (columns: date, device, action, result, by, note).
 
-    Header names are matched ignoring case. Dates may be ISO (2026-12-01) or as
-    a spreadsheet writes them (MM/DD/YYYY, or DD/MM/YYYY with --dayfirst). Each
+    Header names are matched ignoring case. Dates are ISO (2026-12-01) or slashed
+    (DD/MM/YYYY or MM/DD/YYYY): the order is read from the whole sheet (a part above
+    12 decides), or given with --dayfirst/--monthfirst; it is never guessed, and an
+    incomplete date (2026, 2026-11, 11/5) is refused. Each
     bad row is reported as file.csv:row: message, and nothing is written when
     any row is bad unless --skip-bad. Rows already in the records are skipped,
     so importing the same sheet twice adds nothing."""
@@ -138,7 +146,7 @@ def import_command(csv_file: Path, records_dir: Path, dayfirst, skip_bad, dry_ru
 
     loaded = load_or_exit(records_dir, today(), "Not imported: fix the records first.")
     try:
-        sheet = read_csv(csv_file, loaded, today(), dayfirst)
+        sheet = read_csv(csv_file, loaded, today(), order)
     except IntakeError as exc:
         click.echo(str(exc), err=True)
         sys.exit(EXIT_ERRORS)
@@ -146,8 +154,9 @@ def import_command(csv_file: Path, records_dir: Path, dayfirst, skip_bad, dry_ru
         click.echo(problem, err=True)
     summary = (f"{len(sheet.events)} new event(s), {sheet.duplicates} already recorded, "
                f"{len(sheet.bad_rows)} bad row(s)")
-    if sheet.problems and not (skip_bad and sheet.bad_rows):
-        click.echo(f"Nothing imported: {summary}. Fix the rows (or use --skip-bad).", err=True)
+    if sheet.problems and not (skip_bad and sheet.bad_rows and sheet.events):
+        hint = "Fix the rows (or use --skip-bad)" if sheet.events else "Fix the sheet"
+        click.echo(f"Nothing imported: {summary}. {hint}.", err=True)
         sys.exit(EXIT_ERRORS)
     events = [event for event, _ in sheet.events]
     if dry_run:
@@ -168,27 +177,21 @@ def import_command(csv_file: Path, records_dir: Path, dayfirst, skip_bad, dry_ru
 @out_option("Write here (default: stdout).")
 def export_command(records_dir: Path, as_of, fmt, table, out) -> None:
     """Export devices with their next tasks, and events, as CSV or JSON."""
-    import csv
-    import io
     import json
 
     from ..exports import DEVICE_COLUMNS, device_rows, export_json
-    from ..intake import events_csv_rows
+    from ..intake import csv_text, events_csv_rows
 
     day = as_of_day(as_of)
     loaded = load_or_exit(records_dir, day)
     findings = evaluate(loaded.portfolio, loaded.policy, day)
     if fmt == "json":
         text = json.dumps(export_json(loaded.portfolio, findings, day), indent=1, ensure_ascii=False) + "\n"
+    elif table == "events":
+        text = csv_text(events_csv_rows(loaded.portfolio))
     else:
-        buffer = io.StringIO()
-        writer = csv.writer(buffer, lineterminator="\n")
-        if table == "events":
-            writer.writerows(events_csv_rows(loaded.portfolio))
-        else:
-            writer.writerow(DEVICE_COLUMNS)
-            writer.writerows([row[c] for c in DEVICE_COLUMNS] for row in device_rows(loaded.portfolio, findings, day))
-        text = buffer.getvalue()
+        text = csv_text([list(DEVICE_COLUMNS)] + [[row[c] for c in DEVICE_COLUMNS]
+                                                   for row in device_rows(loaded.portfolio, findings, day)])
     emit(text, out)
 
 

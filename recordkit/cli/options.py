@@ -27,7 +27,7 @@ class OnceCommand(click.Command):
     def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
         options = {name: param for param in self.get_params(ctx) if isinstance(param, click.Option)
                    for name in param.opts + param.secondary_opts}
-        seen: set[str] = set()
+        seen: dict[str, str] = {}
         tokens = iter(args)
         for token in tokens:
             if token == "--":
@@ -38,8 +38,9 @@ class OnceCommand(click.Command):
                 continue
             key = param.name
             if key in seen and not param.multiple and not param.count:
-                raise click.UsageError(f"{name} was given twice; give it once", ctx=ctx)
-            seen.add(key)
+                twice = f"{name} was given twice" if seen[key] == name else f"{seen[key]} and {name} both say it"
+                raise click.UsageError(f"{twice}; give one", ctx=ctx)
+            seen[key] = name
             if not param.is_flag and "=" not in token and not (len(token) > 2 and not token.startswith("--")):
                 next(tokens, None)  # the option's value, even when it looks like an option
         return super().parse_args(ctx, args)
