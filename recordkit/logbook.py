@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import errno
 import fcntl
+import hashlib
 import logging
 import os
 import time as time_module
@@ -21,6 +22,7 @@ from datetime import date, time
 from pathlib import Path
 from typing import Callable, Iterator
 
+from . import journal
 from . import model as m
 from .errors import Problems
 from .safeio import UnsafeFile, read_regular
@@ -150,9 +152,10 @@ def _wait_for_lock(handle, path: Path, lock: Path) -> None:
             time_module.sleep(0.05)
 
 
-def update_file(path: Path, change: Callable[[bytes | None], bytes], records_dir: Path | None = None) -> None:
+def update_file(path: Path, change: Callable[[bytes | None], bytes | None], records_dir: Path | None = None) -> None:
     """Rewrite a record file safely: one writer at a time, the new text from `change(old bytes or None)`
-    (which raises LogWriteError to refuse), temp file, fsync, atomic rename, folder fsync."""
+    (which raises to refuse, or returns None to remove the file), temp file, fsync, atomic rename, folder
+    fsync. The write is noted in the journal for `undo`."""
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
@@ -164,7 +167,39 @@ def update_file(path: Path, change: Callable[[bytes | None], bytes], records_dir
         except OSError as exc:
             raise LogWriteError(f"{exc if isinstance(exc, UnsafeFile) else f'{path}: cannot read ({exc.strerror})'}"
                                 "; nothing written") from None
-        _replace_atomically(path, change(old))
+        new = change(old)
+        if new is None:  # the change asks for the file to go (undo of a file a command made)
+            os.unlink(path)
+            return
+        _replace_atomically(path, new)
+        journal.note_write(path, old, new)
+
+
+def undo_last(records_dir: Path) -> tuple[str, list[str]]:
+    """Take out what the last command added (see `journal`): only from files still exactly as it left them,
+    all or nothing; returns the command and what was done to each file. Raises UndoRefused."""
+    command, changes = journal.last_batch(records_dir)
+    last_of = {change.path: change for change in changes}
+    for path, change in last_of.items():  # check every file first: nothing is removed unless all can be
+        try:
+            current = read_regular(Path(path), MAX_FILE_BYTES, follow_links=False)
+        except OSError:
+            raise journal.UndoRefused(f"{path}: cannot be read any more; nothing undone") from None
+        if hashlib.sha256(current).hexdigest() != change.after_sha256:
+            raise journal.UndoRefused(f"{path} was changed after `{command}` wrote it; nothing undone (edit "
+                                      "it by hand, or use git)")
+    done = []
+    for change in reversed(changes):
+        def take_out(old: bytes | None, change=change) -> bytes | None:
+            if old is None or hashlib.sha256(old).hexdigest() != change.after_sha256:
+                raise journal.UndoRefused(f"{change.path} changed while undoing; stopped")
+            rest = old[:change.offset] + old[change.offset + len(change.added):]
+            return None if change.created and not rest.strip() else rest
+        update_file(Path(change.path), take_out, records_dir)
+        done.append(f"{change.path}: removed {len(change.added.splitlines())} line(s)"
+                    + (" (the file it made is gone)" if change.created and not Path(change.path).exists() else ""))
+    journal.forget(records_dir)
+    return command, done
 
 
 def append_events(path: Path, events: list[NewEvent], records_dir: Path | None = None,

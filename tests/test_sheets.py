@@ -156,3 +156,47 @@ def test_a_sheet_read_back_keeps_text_as_written():
     row, problems = csvlog.read_row(cells)
     assert problems == [] and (row.by, row.note) == ("  me ", "a\u2028b\x0cc\r\nd ")
     assert list(csv.reader(io.StringIO("x\u2028y\n", newline="")))[0] == ["x\u2028y"]
+
+
+# ---- undo -------------------------------------------------------------------------------------------------
+
+def _snapshot(folder: Path) -> dict:
+    return {p: p.read_bytes() for p in folder.rglob("*") if p.is_file() and ".recordkit" not in p.parts}
+
+
+@pytest.mark.parametrize("command", [
+    ("log", "test-house/main/s1", "clean", "--date", "2026-11-30"),
+    ("import", "{sheet}"),
+    ("add", "device", "--unit", "test-house/main", "--id", "s2", "--kind", "smoke", "--room", "bed-1",
+     "--manufactured", "2026-01"),
+    ("replace", "test-house/main/s1", "--new-id", "s1-b", "--manufactured", "2026-10", "--date", "2026-11-30"),
+])
+def test_undo_takes_out_exactly_what_the_last_command_wrote(tmp_path, command):
+    folder = folder_of(tmp_path)
+    path = sheet(tmp_path, "2025-05-01", "2026-05-01")  # two years: two log files, both made by the import
+    before = _snapshot(folder)
+    done = run_cli(*[part.format(sheet=path) for part in command], "-r", str(folder))
+    assert done.returncode == 0, done.stderr
+    assert _snapshot(folder) != before
+    undone = run_cli("undo", "-r", str(folder))
+    assert undone.returncode == 0, undone.stderr
+    assert _snapshot(folder) == before  # byte for byte, and the log files the command made are gone
+    assert run_cli("undo", "-r", str(folder)).returncode == 1  # one step only
+
+
+def test_undo_is_refused_after_a_hand_edit(tmp_path):
+    folder = folder_of(tmp_path)
+    assert run_cli("log", "test-house/main/s1", "clean", "--date", "2026-11-30", "-r", str(folder)).returncode == 0
+    log = folder / "log" / "2026.yaml"
+    log.write_text(log.read_text() + "# checked by the agent\n")
+    edited = _snapshot(folder)
+    refused = run_cli("undo", "-r", str(folder))
+    assert refused.returncode == 1 and "was changed after" in refused.stderr
+    assert _snapshot(folder) == edited
+
+
+def test_journal_finds_the_inserted_bytes():
+    from recordkit.journal import inserted
+    assert inserted(b"abc", b"abXYc") == (2, b"XY")
+    assert inserted(None, b"new") == (0, b"new")
+    assert inserted(b"abc", b"abd") is None

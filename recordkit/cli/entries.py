@@ -7,6 +7,7 @@ from pathlib import Path
 
 import click
 
+from .. import journal
 from .. import model as m
 from .options import (EXIT_ERRORS, Group, command, date_option, load_or_exit, records_option, today)
 from .events import refuse_problems, split_when, write_or_exit
@@ -17,6 +18,28 @@ when_installed = date_option("When it was installed (default: today).")
 def register(main: click.Group) -> None:
     main.add_command(add)
     main.add_command(replace)
+    main.add_command(undo)
+
+
+@command()
+@records_option
+def undo(records_dir: Path) -> None:
+    """Take out what the last `log`, `import`, `hear --log`, `add` or `replace` wrote.
+
+    Only while every file it wrote is still exactly as it left it (otherwise
+    nothing is removed, and the message says which file changed); the same
+    lock, temp file, fsync and rename as every write. One step back only."""
+    from ..journal import UndoRefused
+    from ..logbook import LogWriteError, MaybeWritten, undo_last
+
+    try:
+        command_done, done = undo_last(records_dir)
+    except (UndoRefused, LogWriteError, MaybeWritten) as exc:
+        click.echo(f"Not undone: {exc}", err=True)
+        sys.exit(EXIT_ERRORS)
+    click.echo(f"Undid {command_done}:")
+    for line in done:
+        click.echo(f"  {line}")
 
 
 def given(data: dict) -> dict:
@@ -25,13 +48,14 @@ def given(data: dict) -> dict:
 
 
 @contextmanager
-def written_or_exit(what: str):
+def written_or_exit(what: str, records_dir: Path):
     """Exit 1 with the reason (and the lines to add by hand, when there are some) if a write is refused."""
     from ..additions import AddRefused
     from ..logbook import LogWriteError, MaybeWritten
 
     try:
-        yield
+        with journal.batch(records_dir, f"add {what}"):
+            yield
     except AddRefused as exc:
         click.echo(f"Not written: {exc}", err=True)
         if exc.lines:
@@ -48,7 +72,7 @@ def write_entry(records_dir: Path, what: str, parent: str, data: dict, need_reco
 
     loaded = load_or_exit(records_dir, today(), "Not written: fix the records first.", need_records)
     data = given(data)
-    with written_or_exit(what):
+    with written_or_exit(what, records_dir):
         path, line = add_entry(records_dir, loaded, what, parent, data)
     click.echo(f"Added {what} '{data['id']}' at {path}:{line}")
 
@@ -78,7 +102,7 @@ def add_property(records_dir: Path, ident, name, address, unit_id, unit_name, fi
 
     loaded = load_or_exit(records_dir, today(), "Not written: fix the records first.", need_records=False)
     data = {"id": ident, "name": name, **({"address": address} if address else {})}
-    with written_or_exit("property"):
+    with written_or_exit("property", records_dir):
         path, unit_line = write_property(records_dir, loaded, data, {"id": unit_id, "name": unit_name or name},
                                          file_name)
     click.echo(f"Added property '{ident}' at {path}:2 (unit '{unit_id}' at line {unit_line}); add its rooms "
@@ -199,15 +223,16 @@ def replace(old_id, new_id, records_dir: Path, kind, room, power, sensor, manufa
     data = given(data)
     event = NewEvent(day, old_id, m.Action.REPLACE, None, by, note or f"replaced by {new_id}", when=clock)
     refuse_problems(loaded, [event], today())
-    with written_or_exit("device"):
-        path, line = add_entry(records_dir, loaded, "device", located.unit.uid, data)
-    click.echo(f"Added device '{new_id}' at {path}:{line} (replaces '{old.id}')")
-    try:
-        write_or_exit(records_dir, [event], None)
-    except SystemExit:
-        click.echo(f"The new device is recorded but the replacement event is not: run `recordkit log {old_id} "
-                   f"replace --date {day}` once the cause is fixed.", err=True)
-        raise
+    with journal.batch(records_dir, f"replace of {old_id}"):  # one batch: `undo` takes out both
+        with written_or_exit("device", records_dir):
+            path, line = add_entry(records_dir, loaded, "device", located.unit.uid, data)
+        click.echo(f"Added device '{new_id}' at {path}:{line} (replaces '{old.id}')")
+        try:
+            write_or_exit(records_dir, [event], None)
+        except SystemExit:
+            click.echo(f"The new device is recorded but the replacement event is not: run `recordkit log "
+                       f"{old_id} replace --date {day}` once the cause is fixed (or `recordkit undo`).", err=True)
+            raise
     listeners = [loc.device.uid for loc in loaded.portfolio.devices.values()
                  if any(listen.device in (old.id, old_id) for listen in loc.device.listens_to)]
     if listeners:

@@ -27,8 +27,12 @@ def write_or_exit(records_dir: Path, events, log_file: str | None, again: bool =
     from ..intake import IntakeError, write_events
     from ..logbook import LogWriteError, MaybeWritten
 
+    from .. import journal
+
     try:
-        written = write_events(records_dir, events, log_file, again)
+        with journal.batch(records_dir, f"{events[0].action} of {events[0].device}" if len(events) == 1
+                           else f"{len(events)} events"):
+            written = write_events(records_dir, events, log_file, again)
     except (IntakeError, LogWriteError) as exc:
         click.echo(f"Not written: {exc}", err=True)
         sys.exit(EXIT_ERRORS)
