@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 from datetime import date, time
 from pathlib import Path
 
-from . import csvlog
+from . import csvlog, sheets
 from . import model as m
 from .errors import Source
 from .loader import Loaded, event_problems, unread_reason
@@ -88,35 +88,36 @@ class CsvImport:
     duplicates: int = 0
 
 
-def read_csv(path: Path, loaded: Loaded, today: date, order: str | None = None) -> CsvImport:
-    """A spreadsheet's rows as checked events. Slashed dates are read in `order` ('day' or 'month' first),
-    or in the order the whole sheet shows; a sheet that cannot show it is refused, never guessed."""
+def read_csv(path: Path, loaded: Loaded, today: date, order: str | None = None,
+             mapping: sheets.Mapping | None = None, sheet_name: str | None = None) -> CsvImport:
+    """A spreadsheet's rows (CSV, or the first or named sheet of an .xlsx) as checked events, through the
+    column mapping and value words. Slashed dates are read in `order` ('day' or 'month' first), or in the
+    order the whole sheet shows; a sheet that cannot show it is refused, never guessed."""
     result = CsvImport()
-    shown = str(path)
-    try:
-        text = read_regular(path, csvlog.MAX_CSV_BYTES).decode("utf-8-sig")
-    except UnicodeDecodeError:
-        result.problems.append(f"{shown}:1: not UTF-8 text; save the sheet as 'CSV UTF-8'")
+    mapping = mapping or sheets.Mapping()
+    shown, header, body = _table(path, mapping, sheet_name, result)
+    if header is None:
         return result
-    except OSError as exc:
-        raise IntakeError(f"{shown}: cannot read: {exc.strerror}") from None
-    header, body = csvlog.rows(text)
-    if problem := csvlog.header_problem(header):
+    if problem := sheets.header_problem(header, mapping):
         result.problems.append(f"{shown}:1: {problem}")
         return result
-    body = list(body)
+    rows = []
+    for row_number, cells in body:
+        row, problems = sheets.canonical(cells, mapping, loaded.portfolio)
+        rows.append((row_number, row, problems))
     if order is None:
-        order, problem = csvlog.date_order([cells["date"] for _, cells in body])
+        order, problem = csvlog.date_order([row["date"] for _, row, _ in rows])
         if problem:
-            first = next((n for n, cells in body if csvlog.is_slashed(cells["date"])), 1)
+            first = next((n for n, row, _ in rows if csvlog.is_slashed(row["date"])), 1)
             result.problems.append(f"{shown}:{first}: {problem}")
-            result.bad_rows.update(n for n, _ in body)
+            result.bad_rows.update(n for n, _, _ in rows)
             return result
     existing = {e.record_key for e in loaded.portfolio.events}
-    for row_number, cells in body:
+    for row_number, cells, messages in rows:
         source = Source(shown, row_number)
-        row, messages = csvlog.read_row(cells, order)
-        event = NewEvent(*row) if row else None
+        row, row_messages = csvlog.read_row(cells, order)
+        messages = messages + row_messages
+        event = NewEvent(*row) if row and not messages else None
         if event:
             key = event.record_key
             if key in existing:
@@ -130,6 +131,29 @@ def read_csv(path: Path, loaded: Loaded, today: date, order: str | None = None) 
         else:
             result.events.append((event, source))
     return result
+
+
+def _table(path: Path, mapping: sheets.Mapping, sheet_name: str | None, result: CsvImport):
+    """(shown source, header, rows) of a CSV or Excel sheet, or (shown, None, []) after a problem."""
+    shown = str(path)
+    if path.suffix.lower() == ".xlsx":
+        try:
+            read_regular(path, csvlog.MAX_CSV_BYTES)  # a regular file within the limit
+            return sheets.read_xlsx(path, sheet_name, mapping.header_of("date"))
+        except sheets.SheetError as exc:
+            raise IntakeError(str(exc)) from None
+        except OSError as exc:
+            raise IntakeError(f"{shown}: cannot read: {exc.strerror or exc}") from None
+    try:
+        text = read_regular(path, csvlog.MAX_CSV_BYTES).decode("utf-8-sig")
+    except UnicodeDecodeError:
+        result.problems.append(f"{shown}:1: not UTF-8 text; save the sheet as 'CSV UTF-8'")
+        return shown, None, []
+    except OSError as exc:
+        raise IntakeError(f"{shown}: cannot read: {exc.strerror or exc}") from None
+    header, body = csvlog.rows(text)
+    names = [sheets.words(h) for h in header]
+    return shown, names, [(n, dict(zip(names, cells.values()))) for n, cells in body]
 
 
 def csv_text(rows: list[list[str]]) -> str:

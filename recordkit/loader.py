@@ -24,6 +24,7 @@ from .errors import Problem, Problems, Source
 from .fields import MAX_LIFE_YEARS, Fields
 from .rules import Policy, apply_policy_file
 from .safeio import UnsafeFile
+from .sheets import MAP_FILE
 from .yamltree import MAX_FILE_BYTES, read_yaml
 
 POLICY_FILE = "policy.yaml"
@@ -33,6 +34,7 @@ CSV_SUFFIX = ".csv"   # event logs kept as CSV (the import's columns), for very 
 CIRCUIT_KEYS = ("filter_r_ohm", "filter_c_farad", "corner_hz", "hold_r_ohm", "hold_c_farad")
 RECORD_SUFFIXES = (".yaml", ".yml")
 SITE_CONFIGS = ("mkdocs.yml", "mkdocs.yaml")  # a site configuration beside the records is not a record
+NOT_RECORDS = (*SITE_CONFIGS, MAP_FILE)  # nor is the import's column mapping
 
 
 @dataclass
@@ -64,7 +66,7 @@ def record_files(root: Path, problems: Problems) -> list[Path]:
         for name in sorted(files):
             if name.startswith(".") or not name.endswith((*RECORD_SUFFIXES, CSV_SUFFIX)):
                 continue
-            if name in SITE_CONFIGS and Path(folder) == root:
+            if name in NOT_RECORDS and Path(folder) == root:
                 continue
             path = Path(folder) / name
             if not path.resolve().is_relative_to(real_root):
@@ -88,7 +90,7 @@ def unread_reason(root: Path, path: Path) -> str | None:
         return "hidden files and folders (a name starting with '.') are never read"
     if not parts[-1].endswith(RECORD_SUFFIXES):
         return "only .yaml files are read as YAML records"
-    if len(parts) == 1 and parts[0] in (POLICY_FILE, *SITE_CONFIGS):
+    if len(parts) == 1 and parts[0] in (POLICY_FILE, *NOT_RECORDS):
         return f"{parts[0]} is not a log file"
     for depth in range(1, len(parts) + 1):
         step = root.joinpath(*parts[:depth])

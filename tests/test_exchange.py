@@ -149,7 +149,8 @@ def test_import_bad_header(records, tmp_path):
     folder = small_records(records)
     sheet = write_csv(tmp_path / "x.csv", "when,device,what\n2026-01-01,a/b/c,clean\n")
     result = run_cli("import", str(sheet), "--records", str(folder))
-    assert result.returncode == 1 and f"{sheet}:1: header needs columns" in result.stderr
+    assert result.returncode == 1 and f"{sheet}:1: the sheet has no column for date, action" in result.stderr
+    assert "--column date=HEADER" in result.stderr  # and says how to map its own columns
 
 
 # ---- export, round trip ---------------------------------------------------------------------

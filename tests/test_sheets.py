@@ -200,3 +200,63 @@ def test_journal_finds_the_inserted_bytes():
     assert inserted(b"abc", b"abXYc") == (2, b"XY")
     assert inserted(None, b"new") == (0, b"new")
     assert inserted(b"abc", b"abd") is None
+
+
+# ---- landlords' own sheets: mapped columns, composed ids, value words, Excel ----------------------------
+
+OWN = ("Property,Flat,Alarm,Job,Outcome,When,Engineer,Comments\n"
+       "Test House,main,Hall,Tested,OK,14/03/2026,Sam,\n"
+       ",,,,,,,\n"                                              # a blank row
+       "test house,MAIN,s1,New battery,,02/09/2026,Sam,9V\n")  # ids and names in any case
+MAP = ("--column", "date=When", "--column", "action=Job", "--column", "result=Outcome", "--column", "by=Engineer",
+       "--column", "note=Comments", "--device", "{property}/{flat}/{alarm}")
+EXPECTED = [(date(2026, 3, 14), "test", "pass"), (date(2026, 9, 2), "battery", None)]  # 14/03 makes it day-first
+
+
+def _imported(folder: Path):
+    return sorted((e.date, e.action.value, e.result.value if e.result else None)
+                  for e in load_records(folder, date(2026, 12, 1)).portfolio.events)
+
+
+def test_a_sheet_with_its_own_columns_and_words(tmp_path):
+    folder = folder_of(tmp_path)
+    path = tmp_path / "own.csv"
+    path.write_text(OWN)
+    refused = run_cli("import", str(path), "-r", str(folder))
+    assert refused.returncode == 1 and f"{path}:1: the sheet has no column for" in refused.stderr
+    assert "--column date=HEADER" in refused.stderr  # says how to map, not "--skip-bad"
+    dry = run_cli("import", str(path), "-r", str(folder), *MAP, "--dry-run")
+    assert "read 'Tested' as action: test" in dry.stdout and "read 'OK' as result: pass" in dry.stdout
+    assert run_cli("import", str(path), "-r", str(folder), *MAP).returncode == 0
+    assert _imported(folder) == EXPECTED
+
+
+def test_a_mapping_file_in_the_records_folder(tmp_path):
+    folder = folder_of(tmp_path)
+    (folder / "import-map.yaml").write_text(
+        "columns: {date: When, action: Job, result: Outcome, by: Engineer, note: Comments}\n"
+        "device: '{property}/{flat}/{alarm}'\nresults: {'all good': pass}\n")
+    path = tmp_path / "own.csv"
+    path.write_text(OWN.replace(",OK,", ",All  Good,"))
+    result = run_cli("import", str(path), "-r", str(folder))
+    assert result.returncode == 0, result.stderr
+    assert _imported(folder) == EXPECTED
+
+
+def test_an_excel_workbook_with_dates_and_serial_numbers(tmp_path):
+    import openpyxl
+    folder = folder_of(tmp_path)
+    book = openpyxl.Workbook()
+    book.active.title = "Notes"
+    tests = book.create_sheet("Tests")
+    tests.append(["Property", "Flat", "Alarm", "Job", "Outcome", "When"])
+    tests.append(["Test House", "main", "Hall", "Tested", "Failed", date(2026, 3, 14)])
+    tests.append(["Test House", "main", "Hall", "cleaned", None, 46000])  # Excel serial 46000 = 2025-12-09
+    tests.append(["Test House", "main", "Loft", "cleaned", None, date(2026, 4, 1)])
+    path = tmp_path / "tests.xlsx"
+    book.save(path)
+    args = ("import", str(path), "-r", str(folder), "--sheet", "Tests", *MAP[:6], "--device", MAP[-1])
+    bad = run_cli(*args)
+    assert bad.returncode == 1 and f"{path}:Tests:4: 'Loft' is not a device" in bad.stderr  # file:sheet:row
+    assert run_cli(*args, "--skip-bad").returncode == 0
+    assert _imported(folder) == [(date(2025, 12, 9), "clean", None), (date(2026, 3, 14), "test", "fail")]

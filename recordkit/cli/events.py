@@ -133,11 +133,23 @@ def log_command(words, records_dir: Path, unit_uid, result, when, by, note, agai
 @click.option("--dayfirst", "order", flag_value="day", help="Slashed dates are day first: 01/12/2026 is 1 December.")
 @click.option("--monthfirst", "order", flag_value="month", help="Slashed dates are month first: 01/12/2026 is "
               "12 January. Without either, the sheet's own dates must show which (a part above 12).")
+@click.option("--column", "columns", multiple=True, metavar="FIELD=HEADER",
+              help="Which of the sheet's columns holds FIELD (date, device, action, result, by, note, evidence); "
+                   "repeat for several. Also read from import-map.yaml in the records folder.")
+@click.option("--device", "device_template", metavar="TEMPLATE",
+              help="Make device ids from several columns, e.g. '{property}/{flat}/{alarm}': names or ids, "
+                   "matched ignoring case; a room's name stands for its only device.")
+@click.option("--sheet", "sheet_name", metavar="NAME", help="For an .xlsx file: the sheet (default: the first).")
 @click.option("--skip-bad", is_flag=True, help="Import the good rows even when some rows are bad.")
 @click.option("--dry-run", is_flag=True, help="Show what would be added; write nothing.")
 @file_option
-def import_command(csv_file: Path, records_dir: Path, order, skip_bad, dry_run, log_file) -> None:
-    """Import events from a spreadsheet's CSV (columns: date, device, action, result, by, note).
+def import_command(csv_file: Path, records_dir: Path, order, columns, device_template, sheet_name, skip_bad,
+                   dry_run, log_file) -> None:
+    """Import events from a spreadsheet: CSV, or Excel .xlsx (columns: date, device,
+    action, result, by, note, evidence; or the sheet's own, mapped with --column).
+
+    Common words are understood (tested, new battery, OK, failed, ...); --dry-run
+    shows how each distinct value was read.
 
     Header names are matched ignoring case. Dates are ISO (2026-12-01) or slashed
     (DD/MM/YYYY or MM/DD/YYYY): the order is read from the whole sheet (a part above
@@ -147,11 +159,13 @@ def import_command(csv_file: Path, records_dir: Path, order, skip_bad, dry_run, 
     any row is bad unless --skip-bad. Rows already in the records are skipped,
     so importing the same sheet twice adds nothing."""
     from ..intake import IntakeError, read_csv
+    from ..sheets import SheetError, mapping_from
 
     loaded = load_or_exit(records_dir, today(), "Not imported: fix the records first.")
     try:
-        sheet = read_csv(csv_file, loaded, today(), order)
-    except IntakeError as exc:
+        mapping = mapping_from(records_dir, columns, device_template)
+        sheet = read_csv(csv_file, loaded, today(), order, mapping, sheet_name)
+    except (IntakeError, SheetError) as exc:
         click.echo(str(exc), err=True)
         sys.exit(EXIT_ERRORS)
     for problem in sheet.problems:
@@ -164,6 +178,8 @@ def import_command(csv_file: Path, records_dir: Path, order, skip_bad, dry_run, 
         sys.exit(EXIT_ERRORS)
     events = [event for event, _ in sheet.events]
     if dry_run:
+        for seen, value in sorted(mapping.seen.items()):
+            click.echo(f"  read {seen}: {value}")
         for event in events:
             click.echo(f"  would add: - {event.as_yaml()}")
         click.echo(f"Dry run: {summary}; nothing written.")
