@@ -47,7 +47,7 @@ def device_rows(portfolio: m.Portfolio, findings: list[Finding], as_of: date) ->
 
 
 def export_json(portfolio: m.Portfolio, findings: list[Finding], as_of: date) -> dict:
-    header, *rows = events_csv_rows(portfolio)
+    header, *rows = events_csv_rows(portfolio, spreadsheet=False)
     return {"as_of": as_of.isoformat(), "devices": device_rows(portfolio, findings, as_of),
             "events": [{k: v for k, v in zip(header, row) if v} for row in rows]}
 

@@ -136,6 +136,8 @@ def read_csv(path: Path, loaded: Loaded, today: date, order: str | None = None,
 def _table(path: Path, mapping: sheets.Mapping, sheet_name: str | None, result: CsvImport):
     """(shown source, header, rows) of a CSV or Excel sheet, or (shown, None, []) after a problem."""
     shown = str(path)
+    if path.suffix.lower() == ".json":
+        return shown, *_json_events(path)
     if path.suffix.lower() == ".xlsx":
         try:
             read_regular(path, csvlog.MAX_CSV_BYTES)  # a regular file within the limit
@@ -156,6 +158,23 @@ def _table(path: Path, mapping: sheets.Mapping, sheet_name: str | None, result: 
     return shown, names, [(n, dict(zip(names, cells.values()))) for n, cells in body]
 
 
+def _json_events(path: Path) -> tuple[list[str], list[tuple[int, dict[str, str]]]]:
+    """The events of a JSON export (`recordkit export --format json`), as rows of the import's columns.
+    JSON text needs no formula guard: it is put on here so that reading the row takes it off again."""
+    import json
+
+    try:
+        data = json.loads(read_regular(path, csvlog.MAX_CSV_BYTES).decode("utf-8"))
+        events = data["events"]
+        rows = [(number, {name: ("" if item.get(name) is None else str(item.get(name))) for name in sheets.FIELDS})
+                for number, item in enumerate(events, start=1)]
+    except (OSError, ValueError, KeyError, TypeError, AttributeError) as exc:
+        raise IntakeError(f"{path}: not an events export in JSON ({exc})") from None
+    for _, cells in rows:
+        cells["by"], cells["note"] = csvlog.guard(cells["by"]), csvlog.guard(cells["note"])
+    return list(sheets.FIELDS), rows
+
+
 def csv_text(rows: list[list[str]]) -> str:
     """Rows as CSV text (RFC 4180 line ends, so a cell holding a lone CR or LF is quoted and reads back)."""
     buffer = io.StringIO()
@@ -163,11 +182,12 @@ def csv_text(rows: list[list[str]]) -> str:
     return buffer.getvalue()
 
 
-def events_csv_rows(portfolio: m.Portfolio) -> list[list[str]]:
+def events_csv_rows(portfolio: m.Portfolio, spreadsheet: bool = True) -> list[list[str]]:
     """Every event as CSV rows with the import's columns (so an export imports back)."""
     rows = [list(CSV_COLUMNS)]
     for event in sorted(portfolio.events, key=lambda e: (e.date, e.time or time.min)):
         moment = f"{event.date} {event.time.isoformat()}" if event.time else event.date.isoformat()
         rows.append([moment, event.device, str(event.action), str(event.result) if event.result else "",
-                     csvlog.guard(event.by), csvlog.guard(event.note), event.evidence])
+                     *((csvlog.guard(event.by), csvlog.guard(event.note)) if spreadsheet else (event.by, event.note)),
+                     event.evidence])
     return rows

@@ -117,10 +117,12 @@ def match_device(parts: list[str], portfolio: m.Portfolio) -> tuple[str | None, 
         return None, f"the device template gives {len(parts)} parts; it needs property, unit and device"
     prop = next((p for p in portfolio.properties if words(parts[0]) in (p.id, words(p.name))), None)
     if prop is None:
-        return None, f"no property named {parts[0]!r}"
+        return None, f"no property named {parts[0]!r}" + _did_you_mean(
+            parts[0], [p.name for p in portfolio.properties] + [p.id for p in portfolio.properties])
     unit = next((u for u in prop.units if words(parts[1]) in (u.id, words(u.name))), None)
     if unit is None:
-        return None, f"no unit {parts[1]!r} in {prop.id} (units: {', '.join(u.id for u in prop.units)})"
+        return None, f"no unit {parts[1]!r} in {prop.id}" + _did_you_mean(
+            parts[1], [u.name for u in prop.units] + [u.id for u in prop.units])
     wanted = words(parts[2])
     device = next((d for d in unit.devices if d.id == wanted), None)
     if device is None:
@@ -129,9 +131,17 @@ def match_device(parts: list[str], portfolio: m.Portfolio) -> tuple[str | None, 
         current = [d for d in in_room if portfolio.retired_on(d.uid) is None]  # the room's alarm now
         device = in_room[0] if len(in_room) == 1 else current[0] if len(current) == 1 else None
         if device is None:
-            return None, (f"{parts[2]!r} is not a device of {unit.uid}, nor a room with one device "
-                          f"(devices: {', '.join(d.id for d in unit.devices)})")
+            return None, (f"{parts[2]!r} is not a device of {unit.uid}, nor a room with one device in service"
+                          + _did_you_mean(parts[2], [d.id for d in unit.devices] + [r.name for r in unit.rooms]))
     return device.uid, None
+
+
+def _did_you_mean(wrong: str, known: list[str]) -> str:
+    import difflib
+
+    by_words = {words(k): k for k in known}
+    close = difflib.get_close_matches(words(wrong), list(by_words), n=1)
+    return f"; did you mean {by_words[close[0]]!r}?" if close else ""
 
 
 def read_xlsx(path: Path, sheet_name: str | None,

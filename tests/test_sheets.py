@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import csv
 import io
+import json
 import subprocess
 import sys
 from datetime import date, time
@@ -14,6 +15,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from recordkit import csvlog
+from recordkit.exports import export_json
 from recordkit.intake import csv_text, events_csv_rows, read_csv, write_events
 from recordkit.loader import load_records
 from recordkit.yamltree import quoted
@@ -102,18 +104,21 @@ def test_the_events_export_imports_back_byte_for_byte(tmp_path_factory, events):
     (source / "log.yaml").write_text("events:\n" + "".join(lines))
     original = load_records(source, date(2026, 12, 1))
     assert original.problems == [], [str(p) for p in original.problems]
-    exported = work / "events.csv"  # as `recordkit export --table events` writes it
-    exported.write_bytes(csv_text(events_csv_rows(original.portfolio)).encode("utf-8"))
-    target = write_records(work / "b", {"house.yaml": HOUSE + SMOKE})
+    exported_csv = work / "events.csv"  # as `recordkit export --table events` writes it
+    exported_csv.write_bytes(csv_text(events_csv_rows(original.portfolio)).encode("utf-8"))
+    exported_json = work / "events.json"  # as `recordkit export --format json` writes it
+    exported_json.write_text(json.dumps(export_json(original.portfolio, [], date(2026, 12, 1)), ensure_ascii=False))
     fields = lambda loaded: sorted((e.date, e.time or time.min, e.time is None, e.action, e.result,  # noqa: E731
                                     e.by, e.note) for e in loaded.portfolio.events)
-    for round_number in (1, 2):  # the second import of the same file adds nothing
-        loaded = load_records(target, date(2026, 12, 1))
-        imported = read_csv(exported, loaded, date(2026, 12, 1))
-        assert imported.problems == []
-        assert len(imported.events) == (len(original.portfolio.events) if round_number == 1 else 0)
-        write_events(target, [event for event, _ in imported.events], None)
-    assert fields(load_records(target, date(2026, 12, 1))) == fields(original)
+    for exported in (exported_csv, exported_json):
+        target = write_records(work / exported.suffix[1:], {"house.yaml": HOUSE + SMOKE})
+        for round_number in (1, 2):  # the second import of the same file adds nothing
+            loaded = load_records(target, date(2026, 12, 1))
+            imported = read_csv(exported, loaded, date(2026, 12, 1))
+            assert imported.problems == []
+            assert len(imported.events) == (len(original.portfolio.events) if round_number == 1 else 0)
+            write_events(target, [event for event, _ in imported.events], None)
+        assert fields(load_records(target, date(2026, 12, 1))) == fields(original), exported.suffix
 
 
 def test_formula_cells_are_exported_safely():
