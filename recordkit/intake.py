@@ -15,7 +15,9 @@ from pathlib import Path
 from . import csvlog, sheets
 from . import model as m
 from .errors import Source
-from .loader import Loaded, event_problems, unread_reason
+from .loader import Loaded
+from .recordfiles import unread_reason
+from .references import event_problems
 from .logbook import NewEvent, append_events, default_log_file
 from .safeio import read_regular
 

@@ -6,11 +6,8 @@ local rule overrides. Nothing here raises for bad input: problems are returned.
 """
 from __future__ import annotations
 
-import difflib
 import gc
-import os
 import re
-from collections import Counter
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from datetime import date, datetime, timezone
@@ -23,18 +20,14 @@ from .cache import ParseCache, decode_events, decode_property, encode_events, en
 from .errors import Problem, Problems, Source
 from .fields import MAX_LIFE_YEARS, Fields
 from .rules import Policy, apply_policy_file
+from .recordfiles import CSV_SUFFIX, POLICY_FILE, record_files
+from .references import ORPHAN_MESSAGES, _suggest, event_problems, refuse_exports
 from .safeio import UnsafeFile
-from .sheets import MAP_FILE
 from .yamltree import MAX_FILE_BYTES, read_yaml
 
-POLICY_FILE = "policy.yaml"
 EVIDENCE = re.compile(r"^sha256:[0-9a-f]{64}$")
-CSV_SUFFIX = ".csv"   # event logs kept as CSV (the import's columns), for very long histories
 # A listening node's circuit design values (ohms, farads, hertz), all optional.
 CIRCUIT_KEYS = ("filter_r_ohm", "filter_c_farad", "corner_hz", "hold_r_ohm", "hold_c_farad")
-RECORD_SUFFIXES = (".yaml", ".yml")
-SITE_CONFIGS = ("mkdocs.yml", "mkdocs.yaml")  # a site configuration beside the records is not a record
-NOT_RECORDS = (*SITE_CONFIGS, MAP_FILE)  # nor is the import's column mapping
 
 
 @dataclass
@@ -51,56 +44,6 @@ class Loaded:
     @property
     def ok(self) -> bool:
         return not self.problems
-
-
-def record_files(root: Path, problems: Problems) -> list[Path]:
-    """Record files under root, sorted; hidden folders skipped; links leaving root refused."""
-    found: list[Path] = []
-    real_root = root.resolve()
-    for folder, dirs, files in os.walk(root, followlinks=False):
-        for name in dirs:
-            if not name.startswith(".") and os.path.islink(os.path.join(folder, name)):
-                problems.add(Source(os.path.join(folder, name), 0), "a linked folder; refused: recordkit reads and "
-                             "writes only real folders inside the records folder (move the folder in instead)")
-        dirs[:] = sorted(d for d in dirs if not d.startswith(".") and not os.path.islink(os.path.join(folder, d)))
-        for name in sorted(files):
-            if name.startswith(".") or not name.endswith((*RECORD_SUFFIXES, CSV_SUFFIX)):
-                continue
-            if name in NOT_RECORDS and Path(folder) == root:
-                continue
-            path = Path(folder) / name
-            if not path.resolve().is_relative_to(real_root):
-                problems.add(Source(str(path), 0), "links outside the records folder; refused "
-                             "(copy the file into the folder instead)")
-                continue
-            found.append(path)
-    return found
-
-
-def unread_reason(root: Path, path: Path) -> str | None:
-    """Why the loader would not read `path` as a record file (None when it would): a file written there
-    would be lost from every report, or written through a link."""
-    try:
-        parts = path.relative_to(root).parts
-    except ValueError:
-        return "it is outside the records folder"
-    if not parts or any(part in ("", ".", "..") for part in parts):
-        return "it is not a file inside the records folder"
-    if any(part.startswith(".") for part in parts):
-        return "hidden files and folders (a name starting with '.') are never read"
-    if not parts[-1].endswith(RECORD_SUFFIXES):
-        return "only .yaml files are read as YAML records"
-    if len(parts) == 1 and parts[0] in (POLICY_FILE, *NOT_RECORDS):
-        return f"{parts[0]} is not a log file"
-    for depth in range(1, len(parts) + 1):
-        step = root.joinpath(*parts[:depth])
-        if step.is_symlink():
-            return f"{step} is a link, which is never written through"
-        if depth < len(parts) and step.exists() and not step.is_dir():
-            return f"{step} is not a folder"
-    if path.exists() and not path.is_file():
-        return "it is not a regular file"
-    return None
 
 
 def load_records(root: str | Path, as_of: date, cache: bool = True, today: date | None = None) -> Loaded:
@@ -186,7 +129,7 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
     known_clean = bool(fileset) and parse_cache.loaded_clean(fileset, today)
     portfolio = builder.finish(today, check_events=not known_clean)
     if not known_clean:
-        _refuse_exports(builder.events, problems)
+        refuse_exports(builder.events, problems)
     if fileset and not known_clean and not problems and portfolio.events:
         parse_cache.mark_clean(fileset, max(e.date for e in portfolio.events))
     if as_of < today and any(event.date > as_of for event in portfolio.events):  # a past view
@@ -500,86 +443,3 @@ class _Builder:
                                   f"'{device}' (not listed one by one)")
 
 
-def event_problems(event: m.Event, portfolio: m.Portfolio, today: date) -> list[str]:
-    """What is wrong with an event against the records: the same rules for files, `log` and `import`.
-    `today` is the real date: an event after it has not happened yet."""
-    problems = []
-    if event.date > today:
-        problems.append(f"dated {event.date}, after today ({today}): a date in the future")
-    if event.action is m.Action.TEST and event.result is None:
-        problems.append("a test needs 'result: pass' or 'result: fail'")
-    if event.action is not m.Action.TEST and event.result is not None:
-        problems.append(f"only a test has a result (this is a '{event.action}')")
-    located = portfolio.devices.get(event.device)
-    if located is None:
-        return problems + [f"no device '{event.device}' (write property/unit/device)"
-                           + device_suggestion(portfolio, event.device)]
-    device = located.device
-    if event.date < device.installed:
-        problems.append(f"dated {event.date}, before '{event.device}' was installed ({device.installed})")
-    retired = portfolio.retired_on(event.device)
-    if retired and event.date > retired:
-        problems.append(f"dated {event.date}, after '{event.device}' was retired ({retired}); "
-                        "log it against the device that replaced it")
-    return problems
-
-
-def _refuse_exports(events: list[m.Event], problems: Problems) -> None:
-    """A CSV file every one of whose events is also in other record files is an events export kept in the
-    records folder (or a link to one): loading it would count every event twice."""
-    by_file: dict[str, set] = {}
-    for event in events:
-        by_file.setdefault(event.path, set()).add(
-            (event.date, event.device, event.action, event.result, event.by, event.note))  # exports drop the time
-    if not any(path.endswith(CSV_SUFFIX) for path in by_file):
-        return
-    files_holding: Counter = Counter()
-    for keys in by_file.values():
-        files_holding.update(keys)
-    for path, keys in by_file.items():
-        if path.endswith(CSV_SUFFIX) and all(files_holding[key] > 1 for key in keys):
-            problems.add(Source(path, 0), "every event in this file is also in other record files: an events "
-                         "export kept in the records folder? Move it out (its events would count twice)")
-
-
-ORPHAN_MESSAGES = 3  # events listed one by one per unknown device id; the rest are counted
-
-
-def device_suggestion(portfolio: m.Portfolio, wrong: str) -> str:
-    """'; did you mean ...?' for an unknown property/unit/device id. Computed once per distinct id and
-    one level at a time (the property among properties, the unit among its units, the device among its
-    devices), never by comparing with every device id: a typo on a 1,000-unit portfolio stays quick."""
-    memo = portfolio.__dict__.setdefault("_suggestions", {})  # kept with the portfolio, like its cached index
-    if wrong not in memo:
-        memo[wrong] = _device_suggestion(_id_tree(portfolio), wrong)
-    return memo[wrong]
-
-
-def _device_suggestion(tree: dict, wrong: str) -> str:
-    parts = wrong.split("/")
-    if len(parts) != 3:
-        return ""
-    found, level = [], tree
-    for part in parts:
-        if not level:
-            return ""
-        match = part if part in level else next(iter(difflib.get_close_matches(part, list(level), n=1)), None)
-        if match is None:
-            return ""
-        found.append(match)
-        level = level[match]
-    guess = "/".join(found)
-    return f"; did you mean '{guess}'?" if guess != wrong else ""
-
-
-def _id_tree(portfolio: m.Portfolio) -> dict:
-    tree = portfolio.__dict__.get("_id_tree")
-    if tree is None:
-        tree = portfolio.__dict__["_id_tree"] = {
-            p.id: {u.id: {d.id: {} for d in u.devices} for u in p.units} for p in portfolio.properties}
-    return tree
-
-
-def _suggest(wrong: str, known) -> str:
-    close = difflib.get_close_matches(wrong, list(known), n=1)
-    return f"; did you mean '{close[0]}'?" if close else ""

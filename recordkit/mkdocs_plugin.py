@@ -20,7 +20,8 @@ from mkdocs.structure.files import File, Files, InclusionLevel
 
 from .cautions import SHORT
 from .checks import evaluate
-from .loader import SITE_CONFIGS, load_records
+from .loader import load_records
+from .recordfiles import SITE_CONFIGS
 from .render.labels import ASSETS, DEFAULT_SITE_CONFIG
 from .render.site import Page, part_marker, site_pages
 from .rules import Interval, Rule
