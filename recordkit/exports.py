@@ -84,14 +84,20 @@ def calendar_events(portfolio: m.Portfolio, findings: list[Finding], as_of: date
     for finding in calendar_tasks(portfolio, findings):
         located = portfolio.devices[finding.device]
         room = located.unit.room(located.device.room)
-        day = finding.due or as_of
+        # an overdue task sits on the as-of date with its reminder that morning (one dated years ago would
+        # never fire); a task due later sits on its date, reminded ahead
+        overdue = finding.due is None or finding.due < as_of
+        day = as_of if overdue else finding.due
+        ahead = timedelta(hours=9) if overdue else timedelta(days=-REMINDER_DAYS[finding.task], hours=9)
+        since = ("Overdue (date unknown): " if finding.due is None else f"Overdue since {finding.due}: ") if overdue else ""
         label, verb = located.device.kind.label, TASK_VERBS[finding.task]
         where = (room.name if room else located.device.room, located.unit.name, located.property.name,
                  located.property.address)
         yield [
             f"UID:{_text(finding.key)}@recordkit", stamp, sequence,
             f"DTSTART;VALUE=DATE:{day:%Y%m%d}", f"DTEND;VALUE=DATE:{day + timedelta(days=1):%Y%m%d}",
-            "SUMMARY:" + _text(f"{verb} {label} {located.device.id} ({located.unit.name}, {located.property.name})"),
+            "SUMMARY:" + _text(f"{since}{verb} {label} {located.device.id} ({located.unit.name}, "
+                               f"{located.property.name})"),
             "LOCATION:" + _text(", ".join(x for x in where if x)),
             "DESCRIPTION:" + _text(f"{finding.reason}. Rule {finding.rule}: {finding.source}. "
                                    f"Device {finding.device}. {SHORT}"),
@@ -99,8 +105,8 @@ def calendar_events(portfolio: m.Portfolio, findings: list[Finding], as_of: date
             f"X-RECORDKIT-DEVICE:{_text(finding.device)}", f"X-RECORDKIT-TASK:{_text(finding.task)}",
             f"X-RECORDKIT-DUE:{finding.due.isoformat() if finding.due else 'unknown'}",
             "BEGIN:VALARM", "ACTION:DISPLAY", "DESCRIPTION:" + _text(f"{verb} {label} {located.device.id}"),
-            # 09:00 on the day that many days before the (all-day) event starts
-            "TRIGGER:" + _duration(timedelta(days=-REMINDER_DAYS[finding.task], hours=9)), "END:VALARM"]
+            # 09:00 on the day that many days before the (all-day) event starts (the day itself if overdue)
+            "TRIGGER:" + _duration(ahead), "END:VALARM"]
 
 
 _TEXT_ESCAPES = str.maketrans({"\\": "\\\\", ";": "\\;", ",": "\\,", "\n": "\\n", "\r": ""})

@@ -202,8 +202,13 @@ def test_calendar_has_the_same_tasks_and_dates_as_status(tmp_path):
     for event in events:
         due = str(event["X-RECORDKIT-DUE"])
         start = event.decoded("DTSTART")
-        assert start == (DEMO_AS_OF if due == "unknown" else date.fromisoformat(due))
-        assert list(event.walk("VALARM")), "every task has a reminder"
+        overdue = due == "unknown" or date.fromisoformat(due) < DEMO_AS_OF
+        # an overdue task sits on the as-of date, saying since when, so its reminder still fires
+        assert start == (DEMO_AS_OF if overdue else date.fromisoformat(due))
+        assert str(event["SUMMARY"]).startswith("Overdue") is overdue
+        (alarm,) = list(event.walk("VALARM"))  # every task has a reminder
+        trigger = alarm.decoded("TRIGGER")
+        assert (trigger == timedelta(hours=9)) if overdue else (trigger < timedelta(0))  # RFC 5545 §3.8.6.3
 
 
 def test_calendar_uids_are_stable_so_reimport_updates(tmp_path):
