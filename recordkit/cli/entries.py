@@ -1,4 +1,4 @@
-"""Commands that add record entries: `add property|unit|room|device` and `replace`."""
+"""Commands that add record entries, or take the last ones out: add, replace and undo."""
 from __future__ import annotations
 
 import sys
@@ -9,8 +9,8 @@ import click
 
 from .. import journal
 from .. import model as m
-from .options import (EXIT_ERRORS, Group, command, date_option, load_or_exit, records_option, today)
 from .events import refuse_problems, split_when, write_or_exit
+from .options import EXIT_ERRORS, Group, command, date_option, load_or_exit, records_option, today
 
 when_installed = date_option("When it was installed (default: today).")
 
