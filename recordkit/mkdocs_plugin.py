@@ -14,7 +14,7 @@ from pathlib import Path
 
 from mkdocs.config import base, config_options
 from mkdocs.config.defaults import MkDocsConfig
-from mkdocs.exceptions import MkDocsException, PluginError
+from mkdocs.exceptions import Abort, MkDocsException, PluginError
 from mkdocs.plugins import BasePlugin
 from mkdocs.structure.files import File, Files, InclusionLevel
 
@@ -91,6 +91,9 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         if loaded.problems:
             lines = "\n".join(str(p) for p in loaded.problems)
             raise PluginError(f"recordkit: {len(loaded.problems)} problem(s) in the records:\n{lines}")
+        if not loaded.portfolio.properties:
+            raise PluginError(f"recordkit: {self.records_dir}: no property records here yet; start with "
+                              f"`recordkit init -r {self.records_dir}`")
         policy = loaded.policy
         for task, days in self.config.due_soon_days.items():
             name = f"due_soon_{task}"
@@ -247,6 +250,8 @@ def build_site(records: Path, as_of: date | None, out: Path | None, config_file:
         try:
             config = load_config(str(DEFAULT_SITE_CONFIG), config_file_path=str(anchor), **settings)
             build(config)
+        except Abort:  # MkDocs has printed why (the records' problems, or the configuration's)
+            raise SiteBuildError("stopped; see the messages above") from None
         except MkDocsException as exc:
             raise SiteBuildError(str(exc)) from None
     mark_built(Path(config.site_dir))

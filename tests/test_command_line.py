@@ -179,3 +179,14 @@ def test_a_mkdocs_yml_in_the_records_folder_overrides_the_built_in_configuration
     assert (site / "contacts.html").is_file() and (site / "properties/tansy-house.html").is_file()
     from .sitecheck import broken_links
     assert broken_links(site) == []
+
+
+def test_build_loads_the_records_once_and_says_what_to_run_in_an_empty_folder(tmp_path):
+    empty = tmp_path / "records"
+    empty.mkdir()
+    result = run_cli("build", "-r", str(empty), "-o", str(tmp_path / "site"))
+    assert result.returncode == 1 and "recordkit init" in result.stderr and "Traceback" not in result.stderr
+    broken = shutil.copytree(DEMO_RECORDS, tmp_path / "broken", ignore=shutil.ignore_patterns(".recordkit"))
+    (broken / "x.yaml").write_text("property: [\n")
+    result = run_cli("build", "-r", str(broken), "--as-of", AS_OF, "-o", str(tmp_path / "site2"))
+    assert result.returncode == 1 and "x.yaml:2: YAML syntax" in result.stderr

@@ -7,12 +7,19 @@ from pathlib import Path
 import click
 
 from ..checks import evaluate
-from .options import (command, EXIT_ERRORS, as_of_day, as_of_option, load_or_exit, out_option, records_option)
+from .options import (EXIT_ERRORS, as_of_day, as_of_option, command, folder_hint, load_or_exit, out_option,
+                      records_option)
 
 config_option = click.option(
     "--config", "config_file", default=None, type=click.Path(exists=True, dir_okay=False, path_type=Path),
     help="A MkDocs configuration that overrides the built-in one (default: a mkdocs.yml in the records "
          "folder or beside it, if there is one).")
+
+
+def exit_unless_folder(records_dir: Path) -> None:
+    if not records_dir.is_dir():
+        click.echo(f"{records_dir}: records folder not found. {folder_hint(records_dir)}", err=True)
+        sys.exit(EXIT_ERRORS)
 
 
 def register(main: click.Group) -> None:
@@ -39,7 +46,7 @@ def build(records_dir: Path, as_of, out: Path | None, config_file: Path | None, 
     the output folder is refused."""
     from ..mkdocs_plugin import SiteBuildError, build_site
 
-    load_or_exit(records_dir, as_of_day(as_of))
+    exit_unless_folder(records_dir)  # the plugin loads the records (once) and reports their problems
     click.echo(f"Building the site from {records_dir} ...", err=True)
     try:
         site_dir = build_site(records_dir, as_of_day(as_of), out, config_file, force)
@@ -58,7 +65,7 @@ def serve(records_dir: Path, as_of, config_file: Path | None, address: str) -> N
     """Serve the site locally and rebuild it whenever a record file changes."""
     from ..mkdocs_plugin import SiteBuildError, serve_site
 
-    load_or_exit(records_dir, as_of_day(as_of))
+    exit_unless_folder(records_dir)
     click.echo(f"Serving the site of {records_dir} at http://{address}/ (Ctrl-C stops)", err=True)
     try:
         serve_site(records_dir, as_of_day(as_of) if as_of else None, address, config_file)
