@@ -117,7 +117,7 @@ def now() -> datetime:
 def print_problems(loaded: Loaded) -> None:
     for problem in loaded.problems:
         click.echo(str(problem), err=True)
-    if loaded.problems:
+    if loaded.problems and Path(loaded.root).is_dir():  # (a missing folder is said once, with what to run)
         files = {p.source.path for p in loaded.problems}
         click.echo(f"{len(loaded.problems)} problem(s) in {len(files)} file(s); fix them and run again.",
                    err=True)
