@@ -63,7 +63,7 @@ def _codec(kind: Any) -> tuple[Callable[[Any], Any], Callable[[Any, str], Any]]:
         hints = get_type_hints(kind)
         names = [f.name for f in dataclasses.fields(kind)]
         codecs = [_codec(hints[name]) for name in names]
-        converted = [(i, dec) for i, (_, dec) in enumerate(codecs) if dec is not _as_is]
+        converted = [(i, dec) for i, (_, dec) in enumerate(codecs)]
 
         def decode(values: list, path: str):
             if len(values) != len(names):
@@ -88,10 +88,6 @@ def _checked(kind: type) -> Callable[[Any, str], Any]:
             raise TypeError(f"expected {kind.__name__}, got {type(value).__name__}")
         return value
     return decode
-
-
-def _as_is(value: Any, path: str) -> Any:
-    return value
 
 
 _PROPERTY_ENCODE, _PROPERTY_DECODE = _codec(m.Property)

@@ -71,14 +71,10 @@ def date_order(texts: list[str]) -> tuple[str | None, str | None]:
     return DAY_FIRST, None  # no slashed dates, or only ones like 01/01/2026 that read the same both ways
 
 
-def parse_sheet_date(text: str, order: str | None = None) -> date:
-    """An ISO date (YYYY-MM-DD), or with `order` a slashed one (DD/MM/YYYY or MM/DD/YYYY). Nothing is
-    filled in: a year alone, a year and month, or a day and month without a year are refused."""
-    return parse_sheet_moment(text, order)[0]
-
-
 def parse_sheet_moment(text: str, order: str | None = None) -> tuple[date, time | None]:
-    """A date as `parse_sheet_date` reads it, or an ISO date and time (YYYY-MM-DD HH:MM[:SS])."""
+    """An ISO date (YYYY-MM-DD), optionally with a time (HH:MM[:SS]), or with `order` a slashed date
+    (DD/MM/YYYY or MM/DD/YYYY). Nothing is filled in: a year alone, a year and month, or a day and month
+    without a year are refused."""
     text = text.strip()
     if moment := _ISO_TIME.match(text):
         return date.fromisoformat(moment.group(1)), time.fromisoformat(moment.group(2))

@@ -21,7 +21,7 @@ from .errors import Problem, Problems, Source
 from .fields import MAX_LIFE_YEARS, Fields
 from .rules import Policy, apply_policy_file
 from .recordfiles import CSV_SUFFIX, POLICY_FILE, record_files
-from .references import ORPHAN_MESSAGES, _suggest, event_problems, refuse_exports
+from .references import ORPHAN_MESSAGES, suggest, event_problems, refuse_exports
 from .safeio import UnsafeFile
 from .yamltree import MAX_FILE_BYTES, read_yaml
 
@@ -278,7 +278,7 @@ class _Builder:
                 continue
             if old == device.id or old not in ids:
                 self.problems.add(device.source, f"device '{device.id}': replaces '{old}', which is not "
-                                  "another device of this unit" + _suggest(old, ids - {device.id}))
+                                  "another device of this unit" + suggest(old, ids - {device.id}))
             elif old in by_old:
                 self.problems.add(device.source, f"device '{device.id}': '{old}' is already replaced by "
                                   f"'{by_old[old].id}'")
@@ -292,7 +292,7 @@ class _Builder:
             for served in room.serves:
                 if served not in bedrooms:
                     self.problems.add(room.source, f"room '{room.id}': serves '{served}', which is not a bedroom "
-                                      "of this unit" + _suggest(served, bedrooms))
+                                      "of this unit" + suggest(served, bedrooms))
 
     def _room(self, tree: Any, path: str, line: int) -> m.Room | None:
         f = Fields(tree, path, self.problems, "room", line)
@@ -320,7 +320,7 @@ class _Builder:
         room = f.text("room", required=True)
         if room and room not in room_ids:
             f.error("room", f"room '{room}' is not a room of this unit"
-                    + _suggest(room, room_ids))
+                    + suggest(room, room_ids))
         sensor = f.choice("sensor", m.Sensor)
         if kind and sensor and sensor not in m.SENSORS_FOR_KIND[kind]:
             allowed = ", ".join(sorted(m.SENSORS_FOR_KIND[kind])) or "none"
@@ -415,7 +415,7 @@ class _Builder:
                 target = listen.device if "/" in listen.device else f"{located.unit.uid}/{listen.device}"
                 if target not in devices:
                     self.problems.add(listen.source, f"listens_to: no device '{listen.device}'"
-                                      + _suggest(target, devices))
+                                      + suggest(target, devices))
                 elif devices[target].device.kind is m.Kind.LISTENING_NODE:
                     self.problems.add(listen.source, f"listens_to: '{listen.device}' is a listening node, "
                                       "not an alarm")

@@ -91,6 +91,6 @@ def _id_tree(portfolio: m.Portfolio) -> dict:
     return tree
 
 
-def _suggest(wrong: str, known) -> str:
+def suggest(wrong: str, known) -> str:
     close = difflib.get_close_matches(wrong, list(known), n=1)
     return f"; did you mean '{close[0]}'?" if close else ""
