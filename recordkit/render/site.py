@@ -67,6 +67,14 @@ def checklist_uri(prop: m.Property, unit: m.Unit | None = None, monthly: bool = 
     return f"checklists/{prop.id}/{unit.id}{'-monthly' if monthly else ''}.html"
 
 
+def walkround_uri(prop: m.Property, unit: m.Unit) -> str:
+    return f"walkround/{prop.id}/{unit.id}.html"
+
+
+def labels_uri(prop: m.Property, unit: m.Unit) -> str:
+    return f"labels/{prop.id}/{unit.id}.html"
+
+
 NEW_UNIT_SHEET = "checklists/new-unit.html"
 CALENDAR = "due.ics"
 SCHEMA = "records.schema.json"
@@ -144,6 +152,7 @@ class SiteBuilder:
         self.folder = Path(loaded.root).resolve().name or str(loaded.root)  # as the user names it
         self.as_of = as_of
         self.findings = findings
+        self.rule_titles = {rule.name: rule.title for rule in loaded.policy}
         self.by_device = by_device = findings_by_device(findings)
         self.units = {u.uid: (p, u) for p in self.portfolio.properties for u in p.units}
         self.views = {uid: DeviceView(loc, by_device.get(uid, []), self.portfolio.events_for(uid),
@@ -157,11 +166,11 @@ class SiteBuilder:
         # the HTML parts (put in after Markdown): a second environment that escapes for HTML
         self.html_env = jinja2.Environment(loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=True,
                                            trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined)
-        self.html_env.globals.update(badge=badge, kind_label=kind_label, room_notes=room_notes, task_label=TASK_LABELS.get, as_of=as_of,
+        self.html_env.globals.update(badge=badge, state_labels=STATE_LABELS, kind_label=kind_label, room_notes=room_notes, task_label=TASK_LABELS.get, as_of=as_of,
                                     device_anchor=device_anchor)
         self.env.globals.update(badge=badge, anchor=anchor, front_title=front_title, task_label=TASK_LABELS.get, kind_label=kind_label,
                                 when=lambda f: when(f, as_of), as_of=as_of, short_caution=SHORT,
-                                state_labels=STATE_LABELS,
+                                state_labels=STATE_LABELS, rule_anchor=rule_anchor,
                                 part=lambda name: Markup(f"\n\n{part_marker(name)}\n\n"))  # see Page.parts
 
     # ---- helpers available to templates ------------------------------------------------
@@ -229,12 +238,15 @@ class SiteBuilder:
             v=view, unit=view.located.unit, views=self.views, device_anchor=device_anchor,
             successor=self.portfolio.successors.get(view.device.uid),
             evidence_html=lambda events: Markup(self._evidence_html(events)),
-            history_html=history_html, when=lambda f: when(f, self.as_of)))
+            history_html=history_html, when=lambda f: when(f, self.as_of),
+            rule_link=functools.partial(self._rule_link, unit_uri(view.located.property, view.located.unit)),
+            walkround=self._href(unit_uri(view.located.property, view.located.unit),
+                                 walkround_uri(view.located.property, view.located.unit), device_anchor(view.device))))
 
     # ---- pages -------------------------------------------------------------------------
     def pages(self) -> Iterator[Page]:
         """Every page, each made only when asked for."""
-        yield Page("index.md", self.overview)
+        yield Page("index.md", self.overview, parts=self.overview_parts)
         yield Page("rules.md", self.rules)
         yield Page("about.md", self.about)
         yield Page("keeping-records.md", self.keeping_records)
@@ -282,11 +294,44 @@ class SiteBuilder:
 
     def property_parts(self, prop: m.Property) -> dict[str, str]:
         here = property_uri(prop)
-        return {"overdue": self._parts.overdue_table(self._overdue_by_property.get(prop.id, []),
-                                                     functools.partial(self._html_what, here)),
-                "devices": self._parts.device_table(self._active(prop.units),
+        units = [(u, self._href(here, unit_uri(prop, u)), self._active([u])) for u in prop.units]
+        rows = [(Markup('<a href="{}">{}</a>').format(href, u.name), len(views), Counter(v.state for v in views))
+                for u, href, views in units]
+        return {"overdue": self._work_list(self._overdue_by_property.get(prop.id, []), here, [prop])
+                or self._parts.nothing(f"Nothing is overdue here as of {self.as_of}."),
+                "units": self._parts.counts_table("Unit", "Devices in service", rows),
+                "devices": self._parts.device_table([unit for unit in units if unit[2]],
                                                     functools.partial(self._device_href, here),
                                                     lambda f: when(f, self.as_of))}
+
+    def _work_list(self, findings: list[Finding], here: str, props, when_label: str = "Since") -> str:
+        """Findings as a work list grouped by property (when several may be listed) and unit."""
+        by_unit: dict[str, list[Finding]] = {}
+        for finding in findings:
+            by_unit.setdefault(finding.unit, []).append(finding)
+        groups = [(p, units) for p in props
+                  if (units := [(u, self._href(here, unit_uri(p, u)), by_unit[u.uid]) for u in p.units
+                                if u.uid in by_unit])]
+        if not groups:
+            return ""
+        several = len(props) > 1
+        return self._parts.work_list(
+            groups, functools.partial(self._html_what, here), self._room_of, lambda f: when(f, self.as_of),
+            functools.partial(self._rule_link, here), when_label,
+            (lambda p: self._href(here, property_uri(p))) if several else None)
+
+    def _room_of(self, finding: Finding) -> str:
+        view = self.views.get(finding.device)
+        if view is None:
+            return ""  # a coverage gap belongs to the unit
+        room = view.located.unit.room(view.device.room)
+        return room.name if room else view.device.room
+
+    def _rule_link(self, here: str, finding: Finding) -> Markup:
+        """The rule in words, linked to its row on the rules page; its id stays in the tooltip."""
+        return Markup('<a href="{}" title="rule {}">{}</a>{}').format(
+            self._href(here, "rules.md", f"rule-{finding.rule}"), finding.rule,
+            self.rule_titles.get(finding.rule, finding.rule), " (local)" if finding.local else "")
 
     def _evidence_html(self, events) -> str:
         """What each recorded test sounded like: frequency, pattern, level and the envelope."""
@@ -330,22 +375,24 @@ class SiteBuilder:
         return {"unit": unit, "uri": unit_uri(prop, unit), "devices": sum(states.values()),
                 "overdue": states[State.OVERDUE], "due_soon": states[State.DUE_SOON]}
 
-    def overview(self) -> str:
-        active = self._active(u for p in self.portfolio.properties for u in p.units)
-        by_kind: dict[m.Kind, Counter] = {}
-        for view in active:
-            by_kind.setdefault(view.device.kind, Counter())[view.state] += 1
-        totals = Counter(view.state for view in active)
+    @functools.cached_property
+    def _work(self) -> tuple[list[Finding], list[Finding]]:
+        """The overview's work: overdue tasks, and tasks due in the next UPCOMING_DAYS days."""
         overdue = sorted((f for f in self.findings if f.state is State.OVERDUE),
                          key=lambda f: (f.due or date.min, f.device))
         horizon = self.as_of + timedelta(days=UPCOMING_DAYS)
         upcoming = sorted((f for f in self.findings
                            if f.state is not State.OVERDUE and f.due and f.due <= horizon),
                           key=lambda f: (f.due, f.device, TASK_ORDER[f.task]))
+        return overdue, upcoming
+
+    def overview(self) -> str:
+        overdue, upcoming = self._work
+        totals = Counter(view.state for view in self._active(u for p in self.portfolio.properties for u in p.units))
         policy = self.loaded.policy
         quarters = replacement_forecast(self.findings, self.portfolio, self.as_of, policy.costs)
         content = self._render(
-            "overview.md.j2", "index.md", kinds=[(k, by_kind[k]) for k in m.Kind if k in by_kind],
+            "overview.md.j2", "index.md",
             forecast=Markup(forecast_svg(quarters)), yearly=yearly_costs(quarters),
             costs=policy.costs, currency=policy.currency,
             totals=totals, overdue=overdue, upcoming=upcoming, upcoming_days=UPCOMING_DAYS,
@@ -353,6 +400,20 @@ class SiteBuilder:
             properties=self.portfolio.properties, row_limit=OVERVIEW_ROWS, property_rows=self._property_rows(),
             properties_index=PROPERTIES_INDEX if len(self.portfolio.properties) > NAV_PROPERTIES else None)
         return content
+
+    def overview_parts(self) -> dict[str, str]:
+        overdue, upcoming = self._work
+        by_kind: dict[m.Kind, Counter] = {}
+        active = self._active(u for p in self.portfolio.properties for u in p.units)
+        for view in active:
+            by_kind.setdefault(view.device.kind, Counter())[view.state] += 1
+        rows = [(kind_label(k), sum(by_kind[k].values()), by_kind[k]) for k in m.Kind if k in by_kind]
+        rows.append((Markup("<b>All</b>"), len(active), Counter(view.state for view in active)))
+        props = self.portfolio.properties
+        return {"kinds": self._parts.counts_table("Kind", "Devices", rows),
+                "overdue": self._work_list(overdue, "index.md", props) if len(overdue) <= OVERVIEW_ROWS else "",
+                "upcoming": self._work_list(upcoming, "index.md", props, "Due") if len(upcoming) <= OVERVIEW_ROWS
+                else ""}
 
     def _unit_views(self, unit: m.Unit) -> tuple[list[DeviceView], list[DeviceView]]:
         """The unit's devices in service and retired ones."""
@@ -370,7 +431,8 @@ class SiteBuilder:
                                  for chain in (self._position(unit, v.device) for v in active)])
         gaps = [f for f in self.by_device.get(unit.uid, []) if f.task == "coverage"]
         return {"rooms": self._parts.rooms_table(rooms, unit),
-                "coverage": self._parts.gaps_table(gaps, self.loaded.policy.coverage),
+                "coverage": self._parts.gaps_table(gaps, self.loaded.policy.coverage,
+                                                   functools.partial(self._rule_link, unit_uri(prop, unit))),
                 "grid": f'<div class="rk-figure">{grid}</div>',
                 "active": self._parts.sections(active, self._device_section),
                 "retired": self._parts.sections(retired, self._device_section)}
@@ -441,6 +503,11 @@ def front_title(text: str) -> Markup:
     """A page title for the front matter. MkDocs puts it into the nav and <title> as it is
     (it expects HTML, as when it takes a title from a heading), so escape it here."""
     return Markup(json.dumps(html.escape(" ".join(text.split()))))
+
+
+def rule_anchor(name: str) -> Markup:
+    """Where a rule's row on the rules page can be linked to (work lists link their rule here)."""
+    return Markup('<span id="rule-{}"></span>').format(name)
 
 
 def anchor(name: str) -> Markup:
