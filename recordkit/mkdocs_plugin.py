@@ -37,6 +37,7 @@ NEEDED_EXTENSIONS = ("tables", "attr_list", "md_in_html", "admonition", "toc")
 CSS = "assets/recordkit.css"
 SHIM = "assets/iframe-worker-shim.js"  # vendored (MIT) so search works from disk without a CDN
 MARK = "assets/recordkit-mark.svg"  # our logo and favicon (the built-in configuration names it)
+WALKROUND = ("assets/walkround.js", "assets/walkround.css")  # the walk-round form's own script and style
 
 
 class RecordkitConfig(base.Config):
@@ -109,7 +110,8 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                                                local=True))
         loaded.policy = policy
         findings = evaluate(loaded.portfolio, policy, as_of)
-        self.pages = {page.src_uri: page for page in site_pages(loaded, findings, as_of, config.use_directory_urls)}
+        self.pages = {page.src_uri: page for page in site_pages(loaded, findings, as_of, config.use_directory_urls,
+                                                                 config.site_url)}
         log.info("recordkit: %d devices, %d tasks as of %s", len(loaded.portfolio.devices), len(findings), as_of)
 
         for name in NEEDED_EXTENSIONS:
@@ -148,7 +150,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                                   f"remove the hand-written file of that name from {config.docs_dir}")
             inclusion = InclusionLevel.UNDEFINED if page.in_nav and not page.static else InclusionLevel.NOT_IN_NAV
             files.append(MadeFile.of(config, page, inclusion))
-        for asset in (CSS, SHIM, MARK):
+        for asset in (CSS, SHIM, MARK, *WALKROUND):
             files.append(File.generated(config, asset, abs_src_path=str(ASSETS / Path(asset).name)))
         return files
 
@@ -256,6 +258,14 @@ def build_site(records: Path, as_of: date | None, out: Path | None, config_file:
             raise SiteBuildError(str(exc)) from None
     mark_built(Path(config.site_dir))
     return Path(config.site_dir)
+
+
+def site_address(records: Path, config_file: Path | None = None) -> tuple[str | None, bool]:
+    """The site's own address (`site_url`) and URL style from the user's mkdocs.yml, as a build would use
+    them (the built-in configuration has no address and plain .html links)."""
+    config_file = config_file or find_site_config(records)
+    settings, _ = site_settings(records, config_file, records)
+    return settings.get("site_url") or None, bool(settings.get("use_directory_urls", False))
 
 
 def serve_site(records: Path, as_of: date | None, address: str, config_file: Path | None = None) -> None:

@@ -23,7 +23,7 @@ def exit_unless_folder(records_dir: Path) -> None:
 
 
 def register(main: click.Group) -> None:
-    for command_ in (build, serve, checklist, calendar_command):
+    for command_ in (build, serve, checklist, labels, calendar_command):
         main.add_command(command_)
 
 
@@ -111,6 +111,55 @@ def checklist(records_dir: Path, property_id: str | None, unit_id: str | None, a
             raise click.UsageError(exc.args[0]) from None
         html = (monthly_card_html(sheets[0], day, paper) if sheet == "monthly"
                 else inspection_html(sheets, day, paper))
+    write_sheet(html, out)
+    click.echo(f"Wrote {out}")
+
+
+@command()
+@records_option
+@click.option("--property", "property_id", metavar="ID", required=True, help="The property.")
+@click.option("--unit", "unit_id", metavar="ID", help="Just this unit (default: every unit).")
+@as_of_option
+@click.option("--paper", type=click.Choice(["a4", "letter"]), default="a4", show_default=True, help="Paper size (portrait).")
+@click.option("--size", "size", default="64x38", show_default=True, metavar="WxH",
+              help="Label size in millimetres; as many as fit go on a sheet, inside 8 mm margins.")
+@click.option("--site-url", metavar="URL", help="The built site's address, for the QR codes (default: site_url "
+              "of the mkdocs.yml in or beside the records folder; without one, the codes hold the device id).")
+@config_option
+@out_option("Output file: .pdf or .html.", required=True)
+def labels(records_dir: Path, property_id: str, unit_id: str | None, as_of, paper: str, size: str,
+           site_url: str | None, config_file: Path | None, out: Path) -> None:
+    """Device labels to stick beside each alarm: id, kind, room, "replace by" month in large type and a QR code
+    that opens the device's page on the built site (or holds its id when the site has no address).
+
+    Example:  recordkit labels --property tansy-house --unit flat-1 --paper letter -o labels.pdf"""
+    from ..mkdocs_plugin import site_address
+    from ..render.checklist import NotFound, property_sheets
+    from ..render.device_labels import LabelSizeError, grid, parse_size
+    from ..render.site import unit_labels_html
+
+    if out.suffix.lower() not in (".pdf", ".html"):
+        raise click.BadParameter("give a file ending in .pdf or .html", param_hint="--out")
+    try:
+        layout = grid(paper, parse_size(size))
+    except LabelSizeError as exc:
+        raise click.BadParameter(str(exc), param_hint="--size") from None
+    day = as_of_day(as_of)
+    loaded = load_or_exit(records_dir, day)
+    findings = evaluate(loaded.portfolio, loaded.policy, day)
+    try:
+        sheets = property_sheets(loaded, findings, property_id, day, unit_id)
+    except NotFound as exc:
+        raise click.UsageError(exc.args[0]) from None
+    configured, directory_urls = site_address(records_dir, config_file)
+    html = unit_labels_html(sheets, site_url or configured, directory_urls, layout, day)
+    write_sheet(html, out)
+    count = sum(len(sheet.rows) for sheet in sheets)
+    click.echo(f"Wrote {count} label(s), {layout.columns}x{layout.rows} a sheet, to {out}")
+
+
+def write_sheet(html: str, out: Path) -> None:
+    """A printable sheet as .pdf (WeasyPrint) or .html."""
     if out.suffix.lower() == ".pdf":
         from ..render.pdf import write_pdf
 
@@ -118,7 +167,6 @@ def checklist(records_dir: Path, property_id: str | None, unit_id: str | None, a
         write_pdf(html, out)
     else:
         out.write_text(html, encoding="utf-8")
-    click.echo(f"Wrote {out}")
 
 
 @command("calendar")

@@ -127,3 +127,10 @@ def property_sheets(loaded: Loaded, findings: list[Finding], property_id: str, a
         raise NotFound(f"no unit '{unit_id}' in '{property_id}' (known: {', '.join(u.id for u in prop.units)})")
     by_device = findings_by_device(findings)
     return [unit_sheet(loaded.portfolio, by_device, prop, unit, as_of) for unit in units]
+
+
+def walkround_html(sheet: UnitSheet, as_of: date, assets: str, unit_page: str) -> str:
+    """The unit's walk-round form: devices in room order with buttons for each result (see walkround.js).
+    `assets` and `unit_page` are URLs relative to the form."""
+    return _env.get_template("walkround.html.j2").render(sheet=sheet, as_of=as_of, assets=assets,
+                                                        unit_page=unit_page)

@@ -30,7 +30,8 @@ from ..schema import record_schema
 from ..rules import coverage_set_names
 from ..schedule import State
 from .checklist import (UnitSheet, blank_unit_html, findings_by_device, inspection_html, monthly_card_html,
-                        unit_sheet)
+                        unit_sheet, walkround_html)
+from .device_labels import device_address, grid, label_rows, labels_html
 from .escape import md_text
 from .labels import STATE_LABELS, TASK_LABELS, TEMPLATES, kind_label, room_notes
 
@@ -142,8 +143,10 @@ class DeviceView:
 
 
 class SiteBuilder:
-    def __init__(self, loaded: Loaded, findings: list[Finding], as_of: date, directory_urls: bool = False):
+    def __init__(self, loaded: Loaded, findings: list[Finding], as_of: date, directory_urls: bool = False,
+                 site_url: str | None = None):
         self.loaded = loaded
+        self.site_url = site_url
         self.directory_urls = directory_urls
         # A unit's checklist content serves its property's packet, its sheet and its card, which are
         # written one after the other: keep the last 64 units' worth.
@@ -208,7 +211,8 @@ class SiteBuilder:
             here=here, link=link, device_link=device_link, where=where, views=self.views,
             finding_what=finding_what, finding_where=finding_where,
             unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor,
-            checklist_uri=checklist_uri, new_unit_sheet=NEW_UNIT_SHEET, calendar_file=CALENDAR,
+            checklist_uri=checklist_uri, walkround_uri=walkround_uri, labels_uri=labels_uri,
+            new_unit_sheet=NEW_UNIT_SHEET, calendar_file=CALENDAR,
             schema_file=SCHEMA, **context)
 
     # ---- HTML parts (links in them are not rewritten by MkDocs, so they are made here as URLs) --------
@@ -268,6 +272,8 @@ class SiteBuilder:
                            static=True)
                 yield Page(checklist_uri(prop, unit, monthly=True), functools.partial(self.monthly_card, prop, unit),
                            static=True)
+                yield Page(walkround_uri(prop, unit), functools.partial(self.walkround, prop, unit), static=True)
+                yield Page(labels_uri(prop, unit), functools.partial(self.labels, prop, unit), static=True)
 
     def inspection_sheets(self, prop: m.Property, unit: m.Unit | None = None) -> str:
         units = prop.units if unit is None else [unit]
@@ -275,6 +281,16 @@ class SiteBuilder:
 
     def monthly_card(self, prop: m.Property, unit: m.Unit) -> str:
         return monthly_card_html(self._sheet_of(unit.uid), self.as_of)
+
+    def walkround(self, prop: m.Property, unit: m.Unit) -> str:
+        here = walkround_uri(prop, unit)
+        return walkround_html(self._sheet_of(unit.uid), self.as_of, relative_url("assets", here),
+                              self._href(here, unit_uri(prop, unit)))
+
+    def labels(self, prop: m.Property, unit: m.Unit) -> str:
+        """The unit's device labels on A4 (`recordkit labels` prints Letter and other sizes)."""
+        return unit_labels_html([self._sheet_of(unit.uid)], self.site_url, self.directory_urls, grid("a4"),
+                                self.as_of)
 
     def _make_sheet(self, unit_uid: str) -> UnitSheet:
         prop, unit = self.units[unit_uid]
@@ -295,7 +311,8 @@ class SiteBuilder:
     def property_parts(self, prop: m.Property) -> dict[str, str]:
         here = property_uri(prop)
         units = [(u, self._href(here, unit_uri(prop, u)), self._active([u])) for u in prop.units]
-        rows = [(Markup('<a href="{}">{}</a>').format(href, u.name), len(views), Counter(v.state for v in views))
+        rows = [(Markup('<a href="{}">{}</a> <span class="rk-keep">· <a href="{}">walk-round form</a></span>').format(
+                    href, u.name, self._href(here, walkround_uri(prop, u))), len(views), Counter(v.state for v in views))
                 for u, href, views in units]
         return {"overdue": self._work_list(self._overdue_by_property.get(prop.id, []), here, [prop])
                 or self._parts.nothing(f"Nothing is overdue here as of {self.as_of}."),
@@ -469,8 +486,17 @@ class SiteBuilder:
                             coverage_rules=policy.coverage_rules)
 
 
-def site_pages(loaded: Loaded, findings: list[Finding], as_of: date, directory_urls: bool = False) -> Iterator[Page]:
-    return SiteBuilder(loaded, findings, as_of, directory_urls).pages()
+def site_pages(loaded: Loaded, findings: list[Finding], as_of: date, directory_urls: bool = False,
+               site_url: str | None = None) -> Iterator[Page]:
+    return SiteBuilder(loaded, findings, as_of, directory_urls, site_url).pages()
+
+
+def unit_labels_html(sheets: list[UnitSheet], site_url: str | None, directory_urls: bool, layout, as_of: date) -> str:
+    """Labels for the devices of these units; with the site's address, each QR code opens the device's page."""
+    def address(sheet: UnitSheet, row) -> str:
+        return device_address(site_url, page_url(unit_uri(sheet.prop, sheet.unit), directory_urls), row.device.id)
+
+    return labels_html(label_rows(sheets, address), layout, as_of)
 
 
 def badge(state: State | str | None) -> Markup:
