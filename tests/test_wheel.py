@@ -88,6 +88,11 @@ def test_a_new_user_goes_from_init_to_a_site_in_an_empty_folder(installed, tmp_p
     if shutil.which("pdftotext") or os.environ.get("CI"):
         run("checklist", "--property", "elm-court", "-o", "x.pdf")
         assert (home / "x.pdf").read_bytes().startswith(b"%PDF")
+    # the walk-round form, its script and a unit's labels come from the package too
+    assert (site / "walkround/elm-court/flat-2.html").is_file() and (site / "assets/walkround.js").is_file()
+    assert "<svg" in (site / "labels/elm-court/flat-2.html").read_text()
+    run("labels", "--property", "elm-court", "-o", "labels.html")
+    assert (home / "labels.html").read_text().count('class="label"') >= 2
     run("calendar", "-o", "due.ics")
     assert (home / "due.ics").read_text().startswith("BEGIN:VCALENDAR")
     recording = home / "test.wav"

@@ -91,7 +91,7 @@ def checklist(records_dir: Path, property_id: str | None, unit_id: str | None, a
 
     Examples:  recordkit checklist --property tansy-house -o packet.pdf
                recordkit checklist --property bramble-cottage --unit home --sheet monthly -o card.pdf"""
-    from ..render.checklist import NotFound, blank_unit_html, inspection_html, monthly_card_html, property_sheets
+    from ..render.checklist import blank_unit_html, inspection_html, monthly_card_html
 
     if out.suffix.lower() not in (".pdf", ".html"):
         raise click.BadParameter("give a file ending in .pdf or .html", param_hint="--out")
@@ -103,12 +103,7 @@ def checklist(records_dir: Path, property_id: str | None, unit_id: str | None, a
         if sheet == "monthly" and not unit_id:
             raise click.UsageError("--sheet monthly needs --unit")
         day = as_of_day(as_of)
-        loaded = load_or_exit(records_dir, day)
-        findings = evaluate(loaded.portfolio, loaded.policy, day)
-        try:
-            sheets = property_sheets(loaded, findings, property_id, day, unit_id)
-        except NotFound as exc:
-            raise click.UsageError(exc.args[0]) from None
+        sheets = unit_sheets(records_dir, day, property_id, unit_id)
         html = (monthly_card_html(sheets[0], day, paper) if sheet == "monthly"
                 else inspection_html(sheets, day, paper))
     write_sheet(html, out)
@@ -134,7 +129,6 @@ def labels(records_dir: Path, property_id: str, unit_id: str | None, as_of, pape
 
     Example:  recordkit labels --property tansy-house --unit flat-1 --paper letter -o labels.pdf"""
     from ..mkdocs_plugin import site_address
-    from ..render.checklist import NotFound, property_sheets
     from ..render.device_labels import LabelSizeError, grid, parse_size
     from ..render.site import unit_labels_html
 
@@ -145,17 +139,25 @@ def labels(records_dir: Path, property_id: str, unit_id: str | None, as_of, pape
     except LabelSizeError as exc:
         raise click.BadParameter(str(exc), param_hint="--size") from None
     day = as_of_day(as_of)
-    loaded = load_or_exit(records_dir, day)
-    findings = evaluate(loaded.portfolio, loaded.policy, day)
-    try:
-        sheets = property_sheets(loaded, findings, property_id, day, unit_id)
-    except NotFound as exc:
-        raise click.UsageError(exc.args[0]) from None
+    sheets = unit_sheets(records_dir, day, property_id, unit_id)
     configured, directory_urls = site_address(records_dir, config_file)
     html = unit_labels_html(sheets, site_url or configured, directory_urls, layout, day)
     write_sheet(html, out)
     count = sum(len(sheet.rows) for sheet in sheets)
     click.echo(f"Wrote {count} label(s), {layout.columns}x{layout.rows} a sheet, to {out}")
+
+
+def unit_sheets(records_dir: Path, day, property_id: str, unit_id: str | None):
+    """The property's units (or one unit) as sheet content, judged as of `day`; a usage error names what
+    exists when the property or unit does not."""
+    from ..render.checklist import NotFound, property_sheets
+
+    loaded = load_or_exit(records_dir, day)
+    findings = evaluate(loaded.portfolio, loaded.policy, day)
+    try:
+        return property_sheets(loaded, findings, property_id, day, unit_id)
+    except NotFound as exc:
+        raise click.UsageError(exc.args[0]) from None
 
 
 def write_sheet(html: str, out: Path) -> None:
