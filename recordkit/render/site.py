@@ -182,34 +182,8 @@ class SiteBuilder:
             url = posixpath.relpath(target, posixpath.dirname(here) or ".")
             return Markup(url + (f"#{anchor}" if anchor else ""))
 
-        def device_link(view: DeviceView) -> Markup:
-            loc = view.located
-            url = link(unit_uri(loc.property, loc.unit), device_anchor(loc.device))
-            return Markup(f"[{md_text(loc.device.id)}]({url})")
-
-        def where(view: DeviceView) -> Markup:
-            loc = view.located
-            room = loc.unit.room(loc.device.room)
-            parts = [md_text(loc.property.name), f"[{md_text(loc.unit.name)}]({link(unit_uri(loc.property, loc.unit))})",
-                     md_text(room.name if room else loc.device.room)]
-            return Markup(" › ".join(parts))
-
-        def finding_what(f: Finding) -> Markup:
-            if f.device in self.views:
-                return Markup(f"{md_text(kind_label(f.kind))} {device_link(self.views[f.device])}")
-            prop, unit = self.units[f.unit]
-            url = link(unit_uri(prop, unit), "coverage")
-            return Markup(f"[Coverage of {md_text(unit.name)}]({url})")
-
-        def finding_where(f: Finding) -> Markup:
-            if f.device in self.views:
-                return where(self.views[f.device])
-            prop, unit = self.units[f.unit]
-            return Markup(f"{md_text(prop.name)} › [{md_text(unit.name)}]({link(unit_uri(prop, unit))})")
-
         return self.env.get_template(template).render(
-            here=here, link=link, device_link=device_link, where=where, views=self.views,
-            finding_what=finding_what, finding_where=finding_where,
+            here=here, link=link,
             unit_uri=unit_uri, property_uri=property_uri, device_anchor=device_anchor,
             checklist_uri=checklist_uri, walkround_uri=walkround_uri, labels_uri=labels_uri,
             new_unit_sheet=NEW_UNIT_SHEET, calendar_file=CALENDAR,
