@@ -40,6 +40,9 @@ UPCOMING_DAYS = 90
 # and properties leave the navigation for an index page (Material renders the nav into every page).
 OVERVIEW_ROWS = 150
 NAV_PROPERTIES = 40
+# A QR code takes about 3 ms to make: past this many units the site leaves the label sheets to
+# `recordkit labels`, which the unit page then names.
+LABEL_SHEETS_UP_TO = 400
 PROPERTIES_INDEX = "properties.md"
 
 
@@ -158,6 +161,7 @@ class SiteBuilder:
         self.rule_titles = {rule.name: rule.title for rule in loaded.policy}
         self.by_device = by_device = findings_by_device(findings)
         self.units = {u.uid: (p, u) for p in self.portfolio.properties for u in p.units}
+        self.label_sheets = len(self.units) <= LABEL_SHEETS_UP_TO
         self.views = {uid: DeviceView(loc, by_device.get(uid, []), self.portfolio.events_for(uid),
                                       self.portfolio.retired_on(uid),
                                       node_report(self.portfolio, loaded.policy, loc.device, as_of)
@@ -247,7 +251,8 @@ class SiteBuilder:
                 yield Page(checklist_uri(prop, unit, monthly=True), functools.partial(self.monthly_card, prop, unit),
                            static=True)
                 yield Page(walkround_uri(prop, unit), functools.partial(self.walkround, prop, unit), static=True)
-                yield Page(labels_uri(prop, unit), functools.partial(self.labels, prop, unit), static=True)
+                if self.label_sheets:
+                    yield Page(labels_uri(prop, unit), functools.partial(self.labels, prop, unit), static=True)
 
     def inspection_sheets(self, prop: m.Property, unit: m.Unit | None = None) -> str:
         units = prop.units if unit is None else [unit]
@@ -413,7 +418,8 @@ class SiteBuilder:
 
     def unit_page(self, prop: m.Property, unit: m.Unit) -> str:
         active, retired = self._unit_views(unit)
-        return self._render("unit.md.j2", unit_uri(prop, unit), prop=prop, unit=unit, active=active, retired=retired)
+        return self._render("unit.md.j2", unit_uri(prop, unit), prop=prop, unit=unit, active=active, retired=retired,
+                            label_sheets=self.label_sheets)
 
     def unit_parts(self, prop: m.Property, unit: m.Unit) -> dict[str, str]:
         active, retired = self._unit_views(unit)
