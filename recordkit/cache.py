@@ -63,12 +63,12 @@ def _codec(kind: Any) -> tuple[Callable[[Any], Any], Callable[[Any, str], Any]]:
         hints = get_type_hints(kind)
         names = [f.name for f in dataclasses.fields(kind)]
         codecs = [_codec(hints[name]) for name in names]
-        converted = [(i, dec) for i, (_, dec) in enumerate(codecs)]
+        decoders = [dec for _, dec in codecs]
 
         def decode(values: list, path: str):
             if len(values) != len(names):
                 raise ValueError(f"{kind.__name__}: {len(values)} values for {len(names)} fields")
-            for i, dec in converted:
+            for i, dec in enumerate(decoders):
                 values[i] = dec(values[i], path)
             record = object.__new__(kind)  # the fields as checked when the entry was made (frozen: no __init__)
             record.__dict__.update(zip(names, values))

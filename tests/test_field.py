@@ -237,7 +237,7 @@ def test_every_label_lies_inside_its_page(tmp_path):
     devices = sum(len(s.rows) for s in sheets)
     for paper, size in (("a4", (64, 38)), ("letter", (100, 60)), ("a4", (194, 140))):
         layout = grid(paper, size)
-        document = weasyprint.HTML(string=unit_labels_html(sheets, None, False, layout, DEMO_AS_OF)).render()
+        document = weasyprint.HTML(string=unit_labels_html(sheets, None, False, layout)).render()
         assert len(document.pages) == -(-devices // layout.per_page)  # ceil: no blank or missing page
         boxes = 0
         for page in document.pages:

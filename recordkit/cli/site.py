@@ -141,7 +141,7 @@ def labels(records_dir: Path, property_id: str, unit_id: str | None, as_of, pape
     day = as_of_day(as_of)
     sheets = unit_sheets(records_dir, day, property_id, unit_id)
     configured, directory_urls = site_address(records_dir, config_file)
-    html = unit_labels_html(sheets, site_url or configured, directory_urls, layout, day)
+    html = unit_labels_html(sheets, site_url or configured, directory_urls, layout)
     write_sheet(html, out)
     count = sum(len(sheet.rows) for sheet in sheets)
     click.echo(f"Wrote {count} label(s), {layout.columns}x{layout.rows} a sheet, to {out}")

@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from datetime import date
 
 import segno
 from markupsafe import Markup
@@ -74,9 +73,8 @@ def qr_svg(data: str) -> Markup:
 def label_rows(sheets: list[UnitSheet], address) -> list[dict]:
     """One label a device in service, in room order; `address(sheet, row)` gives the QR code's text."""
     return [{"id": row.device.id, "uid": row.device.uid, "kind": row.device.kind, "room": row.room,
-             "unit": sheet.unit.name, "replace_by": replace_month(row.replace_by), "qr_text": address(sheet, row),
-             "qr": qr_svg(address(sheet, row))}
-            for sheet in sheets for row in sheet.rows]
+             "unit": sheet.unit.name, "replace_by": replace_month(row.replace_by), "qr_text": text, "qr": qr_svg(text)}
+            for sheet in sheets for row in sheet.rows for text in (address(sheet, row),)]
 
 
 def replace_month(replace_by: str) -> str:
@@ -84,7 +82,7 @@ def replace_month(replace_by: str) -> str:
     return replace_by[:7] if replace_by[:4].isdigit() else replace_by
 
 
-def labels_html(labels: list[dict], layout: Grid, as_of: date) -> str:
+def labels_html(labels: list[dict], layout: Grid) -> str:
     pages = [labels[i:i + layout.per_page] for i in range(0, len(labels), layout.per_page)] or [[]]
     page_w, page_h = PAPER_MM[layout.paper]
     # the grid is centred on the page
@@ -93,5 +91,4 @@ def labels_html(labels: list[dict], layout: Grid, as_of: date) -> str:
     placed = [[(label, left + (i % layout.columns) * layout.label_w, top + (i // layout.columns) * layout.label_h)
                for i, label in enumerate(page)] for page in pages]
     return _env.get_template("labels.html.j2").render(pages=placed, layout=layout, page_w=page_w, page_h=page_h,
-                                                     qr_mm=min(layout.label_h - 6, layout.label_w * 0.45),
-                                                     as_of=as_of)
+                                                     qr_mm=min(layout.label_h - 6, layout.label_w * 0.45))

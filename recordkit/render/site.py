@@ -216,14 +216,15 @@ class SiteBuilder:
                                                                unit.name)
 
     def _device_section(self, view: DeviceView) -> Markup:
+        loc = view.located
+        here = unit_uri(loc.property, loc.unit)
         return Markup(self.html_env.get_template("_device.html.j2").render(
             v=view, unit=view.located.unit, views=self.views, device_anchor=device_anchor,
             successor=self.portfolio.successors.get(view.device.uid),
             evidence_html=lambda events: Markup(self._evidence_html(events)),
             history_html=history_html, when=lambda f: when(f, self.as_of),
-            rule_link=functools.partial(self._rule_link, unit_uri(view.located.property, view.located.unit)),
-            walkround=self._href(unit_uri(view.located.property, view.located.unit),
-                                 walkround_uri(view.located.property, view.located.unit), device_anchor(view.device))))
+            rule_link=functools.partial(self._rule_link, here),
+            walkround=self._href(here, walkround_uri(loc.property, loc.unit), device_anchor(view.device))))
 
     # ---- pages -------------------------------------------------------------------------
     def pages(self) -> Iterator[Page]:
@@ -268,8 +269,7 @@ class SiteBuilder:
 
     def labels(self, prop: m.Property, unit: m.Unit) -> str:
         """The unit's device labels on A4 (`recordkit labels` prints Letter and other sizes)."""
-        return unit_labels_html([self._sheet_of(unit.uid)], self.site_url, self.directory_urls, grid("a4"),
-                                self.as_of)
+        return unit_labels_html([self._sheet_of(unit.uid)], self.site_url, self.directory_urls, grid("a4"))
 
     def _make_sheet(self, unit_uid: str) -> UnitSheet:
         prop, unit = self.units[unit_uid]
@@ -278,14 +278,12 @@ class SiteBuilder:
     @functools.cached_property
     def _overdue_by_property(self) -> dict[str, list[Finding]]:
         by_property: dict[str, list[Finding]] = {}
-        for finding in sorted((f for f in self.findings if f.state is State.OVERDUE),
-                              key=lambda f: (f.due or date.min, f.device)):
+        for finding in self._work[0]:  # the overview's overdue list, longest overdue first
             by_property.setdefault(finding.unit.split("/", 1)[0], []).append(finding)
         return by_property
 
     def property_page(self, prop: m.Property) -> str:
-        return self._render("property.md.j2", property_uri(prop), prop=prop,
-                            units=[self._unit_summary(prop, u) for u in prop.units])
+        return self._render("property.md.j2", property_uri(prop), prop=prop)
 
     def property_parts(self, prop: m.Property) -> dict[str, str]:
         here = property_uri(prop)
@@ -366,11 +364,6 @@ class SiteBuilder:
     def _retired(self, view: DeviceView) -> bool:
         return view.retired is not None and view.retired <= self.as_of
 
-    def _unit_summary(self, prop: m.Property, unit: m.Unit) -> dict:
-        states = Counter(v.state for v in self._active([unit]))
-        return {"unit": unit, "uri": unit_uri(prop, unit), "devices": sum(states.values()),
-                "overdue": states[State.OVERDUE], "due_soon": states[State.DUE_SOON]}
-
     @functools.cached_property
     def _work(self) -> tuple[list[Finding], list[Finding]]:
         """The overview's work: overdue tasks, and tasks due in the next UPCOMING_DAYS days."""
@@ -382,9 +375,17 @@ class SiteBuilder:
                           key=lambda f: (f.due, f.device, TASK_ORDER[f.task]))
         return overdue, upcoming
 
+    @functools.cached_property
+    def _device_counts(self) -> tuple[dict[m.Kind, Counter], Counter]:
+        """Devices in service by kind and state, and by state alone (for the overview and its parts)."""
+        by_kind: dict[m.Kind, Counter] = {}
+        for view in self._active(u for p in self.portfolio.properties for u in p.units):
+            by_kind.setdefault(view.device.kind, Counter())[view.state] += 1
+        return by_kind, sum(by_kind.values(), Counter())
+
     def overview(self) -> str:
         overdue, upcoming = self._work
-        totals = Counter(view.state for view in self._active(u for p in self.portfolio.properties for u in p.units))
+        totals = self._device_counts[1]
         policy = self.loaded.policy
         quarters = replacement_forecast(self.findings, self.portfolio, self.as_of, policy.costs)
         content = self._render(
@@ -399,12 +400,9 @@ class SiteBuilder:
 
     def overview_parts(self) -> dict[str, str]:
         overdue, upcoming = self._work
-        by_kind: dict[m.Kind, Counter] = {}
-        active = self._active(u for p in self.portfolio.properties for u in p.units)
-        for view in active:
-            by_kind.setdefault(view.device.kind, Counter())[view.state] += 1
+        by_kind, totals = self._device_counts
         rows = [(kind_label(k), sum(by_kind[k].values()), by_kind[k]) for k in m.Kind if k in by_kind]
-        rows.append((Markup("<b>All</b>"), len(active), Counter(view.state for view in active)))
+        rows.append((Markup("<b>All</b>"), sum(totals.values()), totals))
         props = self.portfolio.properties
         return {"kinds": self._parts.counts_table("Kind", "Devices", rows),
                 "overdue": self._work_list(overdue, "index.md", props) if len(overdue) <= OVERVIEW_ROWS else "",
@@ -471,12 +469,12 @@ def site_pages(loaded: Loaded, findings: list[Finding], as_of: date, directory_u
     return SiteBuilder(loaded, findings, as_of, directory_urls, site_url).pages()
 
 
-def unit_labels_html(sheets: list[UnitSheet], site_url: str | None, directory_urls: bool, layout, as_of: date) -> str:
+def unit_labels_html(sheets: list[UnitSheet], site_url: str | None, directory_urls: bool, layout) -> str:
     """Labels for the devices of these units; with the site's address, each QR code opens the device's page."""
     def address(sheet: UnitSheet, row) -> str:
         return device_address(site_url, page_url(unit_uri(sheet.prop, sheet.unit), directory_urls), row.device.id)
 
-    return labels_html(label_rows(sheets, address), layout, as_of)
+    return labels_html(label_rows(sheets, address), layout)
 
 
 def badge(state: State | str | None) -> Markup:
