@@ -2,7 +2,8 @@
 
 What the loader made of each file is kept as JSON (never pickle: a cache is
 data, and loading it must not run code) under `<records>/.recordkit/cache/`, keyed by the
-file's path, size, modification time and a hash of its content. An entry is
+file's path inside the records folder (so `../data` and `/home/x/data` share one cache), its size,
+modification time and a hash of its content. An entry is
 used only when all of them and recordkit's version match; anything else (a
 missing, stale or corrupt entry) falls back to a normal parse. Deleting the
 folder is always safe. Only files that loaded without problems are cached.
@@ -36,7 +37,7 @@ from .safeio import read_regular
 
 EVIDENCE_PATTERN = re.compile(r"^sha256:[0-9a-f]{64}$")
 CACHE_DIR = ".recordkit/cache"  # inside the tool's own hidden folder (see logbook.WORK_DIR)
-FORMAT = 8  # 8: keyed checksums, rooms with appliances, serves, flue, habitable; export detection
+FORMAT = 9  # 9: entries by path inside the records folder, with digests of each unit and device history
 CLEAN_FILE = "clean.json"
 RACY_SECONDS = 2.0
 MAX_ENTRY_BYTES = 512 * 1024 * 1024  # an entry is smaller than the record file it stands for
@@ -91,6 +92,26 @@ def _checked(kind: type) -> Callable[[Any, str], Any]:
 
 
 _PROPERTY_ENCODE, _PROPERTY_DECODE = _codec(m.Property)
+_UNIT_ENCODE = _codec(m.Unit)[0]
+
+
+def _digest(data: Any) -> str:
+    return hashlib.blake2b(json.dumps(data, separators=(",", ":")).encode(), digest_size=12).hexdigest()
+
+
+def record_digests(prop: m.Property | None, events: list[m.Event]) -> dict:
+    """What one file says about each unit and each device's history, as short hashes: a page made from
+    them is made again only when one of its hashes changes (see render_cache)."""
+    by_device: dict[str, list] = {}
+    for e in events:
+        by_device.setdefault(e.device, []).append(
+            [e.date.isoformat(), e.time.isoformat() if e.time else None, e.action.value,
+             e.result.value if e.result else None, e.by, e.note, e.evidence, e.line])
+    digests: dict[str, Any] = {"events": {device: _digest(rows) for device, rows in by_device.items()}}
+    if prop is not None:
+        digests["property"] = _digest([prop.id, prop.name, prop.address, prop.source.line])
+        digests["units"] = {unit.uid: _digest(_UNIT_ENCODE(unit)) for unit in prop.units}
+    return digests
 
 
 def encode_property(prop: m.Property) -> list:

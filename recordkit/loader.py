@@ -16,7 +16,7 @@ from typing import Any
 
 from . import csvlog
 from . import model as m
-from .cache import ParseCache, decode_events, decode_property, encode_events, encode_property
+from .cache import ParseCache, decode_events, decode_property, encode_events, encode_property, record_digests
 from .errors import Problem, Problems, Source
 from .fields import MAX_LIFE_YEARS, Fields
 from .rules import Policy, apply_policy_file
@@ -40,6 +40,26 @@ class Loaded:
     problems: list[Problem]
     files: list[str] = field(default_factory=list)
     last_changed: datetime | None = None  # newest record file's modification time (UTC)
+    digests: "Digests | None" = None  # with the cache: short hashes of what each unit's pages are made of
+
+
+@dataclass
+class Digests:
+    """Hashes of the records, from the parse cache: a property's own fields, each unit's record, and each
+    device's history as (file, hash) in load order. Two loads with equal hashes hold equal records."""
+
+    properties: dict[str, str] = field(default_factory=dict)
+    units: dict[str, str] = field(default_factory=dict)
+    events: dict[str, list[str]] = field(default_factory=dict)
+
+    def add(self, digests: dict, file: str) -> None:
+        if not all(isinstance(d, str) for part in ("units", "events") for d in digests.get(part, {}).values()):
+            raise TypeError("a digest that is not text")
+        if "property" in digests:
+            self.properties[str(digests.get("id"))] = digests["property"]
+        self.units.update(digests.get("units", {}))
+        for device, digest in digests["events"].items():
+            self.events.setdefault(device, []).append(f"{file}:{digest}")
 
     @property
     def ok(self) -> bool:
@@ -88,15 +108,17 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
     paths = record_files(root, problems)
     newest = 0.0
     digests: list[tuple[str, str]] = []
+    record_hashes = Digests() if cache else None
     for path in paths:
         shown = str(path)
+        inside = path.relative_to(root).as_posix()  # the cache's name for the file, however root is written
         is_policy = path.parent == root and path.name == POLICY_FILE
         try:
             limit = csvlog.MAX_CSV_BYTES if path.suffix == CSV_SUFFIX else MAX_FILE_BYTES
-            payload, data, stat, digest = parse_cache.get(path, shown, limit)
+            payload, data, stat, digest = parse_cache.get(path, inside, limit)
             newest = max(newest, stat.st_mtime)
-            digests.append((shown, digest))
-            if payload is not None and not is_policy and builder.add_cached(payload, shown):
+            digests.append((inside, digest))
+            if payload is not None and not is_policy and builder.add_cached(payload, shown, record_hashes, inside):
                 continue
             if data is None:
                 data = path.read_bytes()
@@ -121,7 +143,10 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
                 continue
             builder.add_file(tree, shown)
         if len(problems) == before:
-            parse_cache.put(shown, stat, digest, builder.cache_payload(properties_before, events_before))
+            payload = builder.cache_payload(properties_before, events_before, with_digests=cache)
+            parse_cache.put(inside, stat, digest, payload)
+            if record_hashes is not None:
+                record_hashes.add(payload["digests"], inside)
     # The checks across files (an event's device exists, was in service, ...) depend only on the files'
     # content and, for "not after the as-of date", on the newest event: skip them when this exact set of
     # files loaded cleanly before.
@@ -135,7 +160,7 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
     if as_of < today and any(event.date > as_of for event in portfolio.events):  # a past view
         portfolio = m.Portfolio(portfolio.properties, tuple(e for e in portfolio.events if e.date <= as_of))
     last = datetime.fromtimestamp(newest, timezone.utc) if newest else None
-    return Loaded(str(root), portfolio, policy, problems.sorted(), [str(p) for p in paths], last)
+    return Loaded(str(root), portfolio, policy, problems.sorted(), [str(p) for p in paths], last, record_hashes)
 
 
 def file_problems(text: str, path: str) -> list[Problem]:
@@ -187,17 +212,23 @@ class _Builder:
             self.properties.append(prop)
 
     # ---- the parse cache: a file's property as the checked record, its events as columns ----------
-    def cache_payload(self, properties_before: int, events_before: int) -> dict:
-        payload: dict[str, Any] = {"events": encode_events(self.events[events_before:])}
-        if len(self.properties) > properties_before:
-            payload["property"] = encode_property(self.properties[-1])
+    def cache_payload(self, properties_before: int, events_before: int, with_digests: bool = True) -> dict:
+        events = self.events[events_before:]
+        prop = self.properties[-1] if len(self.properties) > properties_before else None
+        payload: dict[str, Any] = {"events": encode_events(events)}
+        if prop is not None:
+            payload["property"] = encode_property(prop)
+        if with_digests:
+            payload["digests"] = {**record_digests(prop, events), **({"id": prop.id} if prop else {})}
         return payload
 
-    def add_cached(self, payload: Any, path: str) -> bool:
+    def add_cached(self, payload: Any, path: str, digests: "Digests | None" = None, inside: str = "") -> bool:
         """Add a file from its cache entry; False (nothing added) when the entry is damaged."""
         try:
             events = decode_events(payload["events"], path, self._shared, self._day)
             prop = decode_property(payload["property"], path) if "property" in payload else None
+            if digests is not None:
+                digests.add(payload["digests"], inside)
         except (ValueError, KeyError, IndexError, TypeError, AttributeError):
             return False
         if prop is not None:

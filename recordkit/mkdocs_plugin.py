@@ -9,13 +9,14 @@ from __future__ import annotations
 
 import logging
 import os
+import time
 from datetime import date
 from pathlib import Path
 
 from mkdocs.config import base, config_options
 from mkdocs.config.defaults import MkDocsConfig
 from mkdocs.exceptions import Abort, MkDocsException, PluginError
-from mkdocs.plugins import BasePlugin
+from mkdocs.plugins import BasePlugin, event_priority
 from mkdocs.structure.files import File, Files, InclusionLevel
 
 from .cautions import SHORT
@@ -24,6 +25,8 @@ from .loader import load_records
 from .recordfiles import SITE_CONFIGS
 from .render.labels import ASSETS, DEFAULT_SITE_CONFIG
 from .render.site import Page, part_marker, site_pages
+from .render.page_keys import digest
+from .render_cache import RenderIndex
 from .rules import Interval, Rule
 
 log = logging.getLogger("mkdocs.plugins.recordkit")
@@ -51,11 +54,17 @@ class MadeFile(File):
     a portfolio of thousands of units has tens of thousands of these."""
 
     made: Page  # (MkDocs' own `page` attribute is the page it builds)
+    index: RenderIndex | None = None
+    kept: dict | None = None  # the render cache's entry when the last build's file is kept
 
     @classmethod
-    def of(cls, config: MkDocsConfig, page: Page, inclusion: InclusionLevel) -> "MadeFile":
+    def of(cls, config: MkDocsConfig, page: Page, inclusion: InclusionLevel,
+           index: RenderIndex | None) -> "MadeFile":
         made = cls.generated(config, page.src_uri, content="", inclusion=inclusion)
         made.made = page
+        made.index = index
+        if index is not None:
+            made.kept = index.kept_entry(page.src_uri, page.key, made.abs_dest_path)
         return made
 
     @property
@@ -67,20 +76,45 @@ class MadeFile(File):
         return self.made.make().encode("utf-8")
 
     def is_modified(self) -> bool:
-        return True
+        """MkDocs (in a build that keeps pages) makes only the pages this says are modified."""
+        return self.kept is None
 
     def copy_file(self, dirty: bool = False) -> None:
+        if self.kept is not None:
+            return
         os.makedirs(os.path.dirname(self.abs_dest_path), exist_ok=True)
         with open(self.abs_dest_path, "w", encoding="utf-8", newline="") as handle:
             handle.write(self.made.make())
+        if self.index is not None:
+            self.index.wrote(self.src_uri, self.made.key, self.abs_dest_path)
+
+
+class _QuietDirty(logging.Filter):
+    """MkDocs warns that a build keeping pages may leave navigation stale; ours cannot: a page is kept
+    only while its key, which holds the navigation and settings (the frame), is unchanged."""
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        return not str(record.msg).startswith(("A 'dirty' build is being performed",
+                                               "The directory contains stale files"))
+
+
+logging.getLogger("mkdocs.commands.build").addFilter(_QuietDirty())
 
 
 class RecordkitPlugin(BasePlugin[RecordkitConfig]):
     def __init__(self) -> None:
         self.pages: dict[str, Page] = {}
         self.records_dir: Path | None = None
+        self.index: RenderIndex | None = None
+        self.files: Files | None = None
+        self.made_files: list[MadeFile] = []
+        self.search_entries: dict[str, list] = {}  # this build's search entries of each page it made
+        self.indexed = 0
+        self.nav_names: list = []
+        self.started = 0.0
 
     def on_config(self, config: MkDocsConfig) -> MkDocsConfig:
+        self.started = time.perf_counter()
         # From the CLI: relative to where it runs; from mkdocs.yml: relative to that file.
         if os.environ.get(ENV_RECORDS):
             self.records_dir = Path(os.environ[ENV_RECORDS])
@@ -112,6 +146,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         findings = evaluate(loaded.portfolio, policy, as_of)
         self.pages = {page.src_uri: page for page in site_pages(loaded, findings, as_of, config.use_directory_urls,
                                                                  config.site_url)}
+        self.nav_names = [(p.id, p.name) for p in loaded.portfolio.properties]
         log.info("recordkit: %d devices, %d tasks as of %s", len(loaded.portfolio.devices), len(findings), as_of)
 
         for name in NEEDED_EXTENSIONS:
@@ -141,6 +176,12 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             raise PluginError(f"recordkit: as_of must be a date as YYYY-MM-DD, got {text!r}") from None
 
     def on_files(self, files: Files, /, *, config: MkDocsConfig) -> Files:
+        own = [f for f in files if f.generated_by is None]  # the hand-written pages, before ours join
+        self.index = RenderIndex(self.records_dir, Path(config.site_dir), self._frame(config, own)) \
+            if self.records_dir else None
+        self.made_files = []
+        self.search_entries = {}
+        self.indexed = 0
         for page in self.pages.values():
             parts = page.src_uri.split("/")
             if page.src_uri.startswith("/") or any(part in ("", ".", "..") for part in parts):
@@ -149,10 +190,53 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                 raise PluginError(f"recordkit: {page.src_uri} is generated from the records; "
                                   f"remove the hand-written file of that name from {config.docs_dir}")
             inclusion = InclusionLevel.UNDEFINED if page.in_nav and not page.static else InclusionLevel.NOT_IN_NAV
-            files.append(MadeFile.of(config, page, inclusion))
+            made = MadeFile.of(config, page, inclusion, self.index)
+            self.made_files.append(made)
+            files.append(made)
+        for file in own:
+            if file.is_documentation_page():
+                file.is_modified = lambda: True  # its navigation may have changed: always made again
         for asset in (CSS, SHIM, MARK, *WALKROUND):
             files.append(File.generated(config, asset, abs_src_path=str(ASSETS / Path(asset).name)))
+        self.files = files
         return files
+
+    def _frame(self, config: MkDocsConfig, own: list[File]) -> str:
+        """What every page's frame is made of: the settings, the theme and its templates, the navigation
+        (the hand-written pages by name, size and time, not the folder they are in, which may be a new
+        temporary one each build; the properties' names) and the MkDocs and Material versions."""
+        import material
+        import mkdocs
+
+        installed = tuple(Path(m.__file__).resolve().parent for m in (mkdocs, material))
+        theme_files = [(str(p), p.stat().st_size, p.stat().st_mtime_ns) for d in config.theme.dirs
+                       if not Path(d).resolve().is_relative_to(installed[0])
+                       and not Path(d).resolve().is_relative_to(installed[1])
+                       for p in sorted(Path(d).rglob("*")) if p.is_file()]
+        settings = {key: repr(value) for key, value in config.items()
+                    if key not in ("site_dir", "docs_dir", "config_file_path", "dev_addr", "watch", "plugins", "theme")}
+        hand_written = [(f.src_uri, os.stat(f.abs_src_path).st_size, os.stat(f.abs_src_path).st_mtime_ns)
+                        for f in own if f.abs_src_path and os.path.isfile(f.abs_src_path)]
+        return digest([mkdocs.__version__, material.__version__, settings, sorted(config.theme.items(), key=str),
+                       [(name, dict(plugin.config)) for name, plugin in config.plugins.items()],
+                       theme_files, hand_written, self.nav_names])
+
+    def on_env(self, env, /, *, config: MkDocsConfig, files: Files):
+        for made in self.made_files:  # a kept page keeps its title (the navigation shows it)
+            if made.kept is not None and made.page is not None and made.kept.get("title"):
+                made.page.title = made.kept["title"]
+        return env
+
+    def on_nav(self, nav, /, *, config: MkDocsConfig, files: Files):
+        return self.on_env(nav, config=config, files=files)
+
+    @event_priority(-100)  # after the search plugin has indexed the page
+    def on_page_context(self, context, /, *, page, config: MkDocsConfig, nav):
+        search = _search_index(config)
+        if search is not None:
+            self.search_entries[page.file.src_uri] = search.entries[self.indexed:]
+            self.indexed = len(search.entries)
+        return context
 
     def on_post_page(self, output: str, /, *, page, config: MkDocsConfig) -> str:
         """Put the long tables and histories in, after Markdown and the search index have seen the page."""
@@ -162,16 +246,46 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                 output = output.replace(part_marker(name), html, 1)
         return output
 
+    @event_priority(50)  # before the search plugin writes its index
     def on_post_build(self, *, config: MkDocsConfig) -> None:
+        index, files = self.index, self.files
+        if index is not None and files is not None:
+            for made in self.made_files:
+                if made.kept is None and made.is_documentation_page() and made.page is not None:
+                    index.wrote(made.src_uri, made.made.key, made.abs_dest_path, made.page.title,
+                                self.search_entries.get(made.src_uri))
+            search = _search_index(config)
+            if search is not None:  # every page's entries in page order, as a full build lists them
+                entries: list = []
+                for file in files.documentation_pages():
+                    kept = getattr(file, "kept", None)
+                    entries += self.search_entries.get(file.src_uri) or (kept or {}).get("search") or []
+                search.entries = entries
+                config.plugins["material/search"].search_index_prev = None
+            outputs = {f.dest_uri for f in files}
+            index.remove_stale(outputs)
+            index.save(outputs)
+            log.info("recordkit: built in %.1f s: %d page(s) made, %d kept as they were",
+                     time.perf_counter() - self.started, index.made, index.kept)
         self.pages = {}  # let the records go: `mkdocs serve` loads them afresh on the next build
+        self.made_files = []
+        self.files = None
 
     def on_build_error(self, *, error: Exception) -> None:
         self.pages = {}
+        self.made_files = []
+        self.files = None
 
     def on_serve(self, server, /, *, config: MkDocsConfig, builder):
         if self.records_dir:
             server.watch(str(self.records_dir))
         return server
+
+
+def _search_index(config: MkDocsConfig):
+    """Material's search index being filled in this build, if search is on."""
+    search = config.plugins.get("material/search")
+    return getattr(search, "search_index", None) if search is not None and search.config.enabled else None
 
 
 class SiteBuildError(Exception):
@@ -234,7 +348,8 @@ def build_site(records: Path, as_of: date | None, out: Path | None, config_file:
     from mkdocs.commands.build import build
     from mkdocs.config import load_config
 
-    from .outdir import OutputRefused, check_output, default_output, mark_built
+    from .outdir import OutputRefused, check_output, default_output, looks_built, mark_built
+    from .render_cache import has_index
 
     config_file = config_file or find_site_config(records)
     _pass_arguments(records, as_of)
@@ -251,7 +366,8 @@ def build_site(records: Path, as_of: date | None, out: Path | None, config_file:
             raise SiteBuildError(str(exc)) from None
         try:
             config = load_config(str(DEFAULT_SITE_CONFIG), config_file_path=str(anchor), **settings)
-            build(config)
+            # keep unchanged pages of the last build into this folder (see render_cache)
+            build(config, dirty=looks_built(Path(out)) and has_index(records, Path(out)))
         except Abort:  # MkDocs has printed why (the records' problems, or the configuration's)
             raise SiteBuildError("stopped; see the messages above") from None
         except MkDocsException as exc:

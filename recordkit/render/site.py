@@ -33,6 +33,7 @@ from .checklist import (UnitSheet, blank_unit_html, findings_by_device, inspecti
                         unit_sheet, walkround_html)
 from .device_labels import device_address, grid, label_rows, labels_html
 from .escape import md_text
+from .page_keys import PageKeys
 from .labels import STATE_LABELS, TASK_LABELS, TEMPLATES, kind_label, room_notes
 
 UPCOMING_DAYS = 90
@@ -57,6 +58,8 @@ class Page:
     # The HTML for the page's part("name") markers, put in after Markdown and search have run: long
     # tables and histories skip both, which keeps the build linear and fast at a landlord's scale.
     parts: Callable[[], dict[str, str]] | None = None
+    # A hash of everything the page is made of (see page_keys); None: made at every build.
+    key: str | None = None
 
 
 def part_marker(name: str) -> str:
@@ -162,6 +165,8 @@ class SiteBuilder:
         self.by_device = by_device = findings_by_device(findings)
         self.units = {u.uid: (p, u) for p in self.portfolio.properties for u in p.units}
         self.label_sheets = len(self.units) <= LABEL_SHEETS_UP_TO
+        self.keys = PageKeys(loaded.digests, self.portfolio, loaded.policy, by_device, as_of,
+                             (directory_urls, site_url, self.label_sheets, str(Path(loaded.root).resolve())))
         self.views = {uid: DeviceView(loc, by_device.get(uid, []), self.portfolio.events_for(uid),
                                       self.portfolio.retired_on(uid),
                                       node_report(self.portfolio, loaded.policy, loc.device, as_of)
@@ -240,20 +245,25 @@ class SiteBuilder:
         if many:
             yield Page(PROPERTIES_INDEX, lambda: self._render("properties.md.j2", PROPERTIES_INDEX,
                                                               rows=self._property_rows()))
+        keys = self.keys
         for prop in self.portfolio.properties:
-            yield Page(property_uri(prop), functools.partial(self.property_page, prop),
-                       parts=functools.partial(self.property_parts, prop), in_nav=not many)
-            yield Page(checklist_uri(prop), functools.partial(self.inspection_sheets, prop), static=True)
+            uri = property_uri(prop)
+            yield Page(uri, functools.partial(self.property_page, prop), in_nav=not many,
+                       parts=functools.partial(self.property_parts, prop), key=keys.property_page(prop, uri))
+            uri = checklist_uri(prop)
+            yield Page(uri, functools.partial(self.inspection_sheets, prop), static=True,
+                       key=keys.property_page(prop, uri))
             for unit in prop.units:
-                yield Page(unit_uri(prop, unit), functools.partial(self.unit_page, prop, unit),
-                           parts=functools.partial(self.unit_parts, prop, unit), in_nav=False)
-                yield Page(checklist_uri(prop, unit), functools.partial(self.inspection_sheets, prop, unit),
-                           static=True)
-                yield Page(checklist_uri(prop, unit, monthly=True), functools.partial(self.monthly_card, prop, unit),
-                           static=True)
-                yield Page(walkround_uri(prop, unit), functools.partial(self.walkround, prop, unit), static=True)
+                uri = unit_uri(prop, unit)
+                yield Page(uri, functools.partial(self.unit_page, prop, unit), in_nav=False,
+                           parts=functools.partial(self.unit_parts, prop, unit), key=keys.unit_page(prop, unit, uri))
+                sheets = [(checklist_uri(prop, unit), functools.partial(self.inspection_sheets, prop, unit)),
+                          (checklist_uri(prop, unit, monthly=True), functools.partial(self.monthly_card, prop, unit)),
+                          (walkround_uri(prop, unit), functools.partial(self.walkround, prop, unit))]
                 if self.label_sheets:
-                    yield Page(labels_uri(prop, unit), functools.partial(self.labels, prop, unit), static=True)
+                    sheets.append((labels_uri(prop, unit), functools.partial(self.labels, prop, unit)))
+                for uri, make in sheets:
+                    yield Page(uri, make, static=True, key=keys.unit_page(prop, unit, uri))
 
     def inspection_sheets(self, prop: m.Property, unit: m.Unit | None = None) -> str:
         units = prop.units if unit is None else [unit]

@@ -1,0 +1,102 @@
+"""What each generated page is made of, as one short hash: its render key.
+
+A unit's pages depend on its property's own fields, the unit's record, each device's history, the
+findings about them (which carry what the rules and other units make of them), the policy, the as-of
+date, the site's address and URL style, and recordkit's templates. The parse cache keeps a hash of each
+record and history (`loader.Digests`), so a key costs a few lookups, not a pass over the events. Two
+builds that give a page the same key make the same page; the plugin then keeps the page it wrote before
+(see `render_cache`). Pages about the whole portfolio (the overview, the calendar) have no key and are
+always made.
+"""
+from __future__ import annotations
+
+import dataclasses
+import functools
+import hashlib
+import json
+from datetime import date
+from enum import Enum
+from typing import Any
+
+from .. import __version__
+from .. import model as m
+from ..checks import Finding
+from ..loader import Digests
+from ..rules import Policy
+from .labels import TEMPLATES
+
+
+def digest(parts: Any) -> str:
+    return hashlib.blake2b(json.dumps(parts, default=_plain, separators=(",", ":")).encode(),
+                           digest_size=16).hexdigest()
+
+
+def _plain(value: Any) -> Any:
+    """A value as JSON data that is the same in every process (a set's order is not: string hashes are
+    salted per process, so sets are sorted)."""
+    if isinstance(value, Enum):
+        return value.value
+    if isinstance(value, (set, frozenset)):
+        return sorted((_plain(v) if not isinstance(v, str) else v for v in value), key=str)
+    if dataclasses.is_dataclass(value):
+        return [type(value).__name__, *(getattr(value, f.name) for f in dataclasses.fields(value))]
+    return str(value)
+
+
+@functools.cache
+def templates_digest() -> str:
+    """recordkit's own templates, styles and scripts, by content (a changed template changes every key)."""
+    hasher = hashlib.blake2b(__version__.encode(), digest_size=16)
+    for path in sorted(p for p in TEMPLATES.rglob("*") if p.is_file() and "__pycache__" not in p.parts):
+        hasher.update(path.relative_to(TEMPLATES).as_posix().encode() + b"\0" + path.read_bytes() + b"\0")
+    return hasher.hexdigest()
+
+
+def policy_digest(policy: Policy) -> str:
+    return digest([list(policy), policy.rule_set, policy.costs, policy.currency])
+
+
+def _finding_text(f: Finding) -> str:
+    return f"{f.device}|{f.task}|{f.due}|{f.state.value}|{f.reason}|{f.rule}|{f.source}|{f.local}|{f.record}"
+
+
+class PageKeys:
+    """Render keys for the pages of units and properties; None for every page when the records were
+    loaded without the cache (no hashes to build keys from)."""
+
+    def __init__(self, digests: Digests | None, portfolio: m.Portfolio, policy: Policy,
+                 by_device: dict[str, list[Finding]], as_of: date, settings: tuple):
+        self.digests = digests
+        self.portfolio = portfolio
+        self.by_device = by_device
+        self._units: dict[str, str] = {}
+        self.site = digest([templates_digest(), policy_digest(policy), as_of, *settings]) if digests else ""
+
+    def _device_inputs(self, device: m.Device) -> list:
+        return [self.digests.events.get(device.uid, []), [_finding_text(f) for f in self.by_device.get(device.uid, [])]]
+
+    def unit_inputs(self, prop: m.Property, unit: m.Unit) -> str:
+        known = self._units.get(unit.uid)  # by uid: hashing the records themselves is slow
+        if known is None:
+            known = self._units[unit.uid] = self._unit_inputs(prop, unit)
+        return known
+
+    def _unit_inputs(self, prop: m.Property, unit: m.Unit) -> str:
+        parts: list[Any] = [self.digests.properties.get(prop.id), self.digests.units.get(unit.uid),
+                            [_finding_text(f) for f in self.by_device.get(unit.uid, [])]]
+        for device in unit.devices:
+            parts.append(self._device_inputs(device))
+            if device.kind is m.Kind.LISTENING_NODE:  # what it hears is recorded in other units too
+                for _, target in self.portfolio.listened(device):
+                    parts.append([target.device.uid, self.digests.units.get(target.unit.uid),
+                                  self._device_inputs(target.device)])
+        return digest(parts)
+
+    def unit_page(self, prop: m.Property, unit: m.Unit, uri: str) -> str | None:
+        return digest([self.site, uri, self.unit_inputs(prop, unit)]) if self.digests else None
+
+    def property_page(self, prop: m.Property, uri: str) -> str | None:
+        if not self.digests:
+            return None
+        return digest([self.site, uri, self.digests.properties.get(prop.id),
+                       [self.unit_inputs(prop, unit) for unit in prop.units]])

@@ -1,0 +1,88 @@
+"""The render cache: a page whose render key is unchanged is kept as the last build wrote it.
+
+Every generated page of a unit or property has a render key (see `render.page_keys`). After a build,
+the index records, for each such page, its key joined with the site's frame (the MkDocs settings, the
+theme, the hand-written pages and the navigation), the size and modification time of the file written,
+its title and its search entries. The next build into the same folder keeps a page when its key is the
+same and its file is still exactly as written; it makes every other page. What is kept is never copied:
+the site folder itself holds it. The index lives beside the parse cache (`.recordkit/cache/`, keyed
+with this machine's key like every entry), one per output folder; deleting it means a full build.
+"""
+from __future__ import annotations
+
+import os
+from pathlib import Path
+from typing import Any
+
+from .cache import ParseCache
+from .render.page_keys import digest
+
+KIND = "render-index"
+FORMAT = 1
+
+
+class RenderIndex:
+    def __init__(self, records_dir: Path, site_dir: Path, frame: str):
+        self.cache = ParseCache(records_dir)
+        self.site_dir = Path(site_dir).resolve()
+        self.frame = frame
+        old = self.cache.note(KIND, str(self.site_dir))
+        valid = isinstance(old, dict) and old.get("format") == FORMAT
+        self.old: dict[str, Any] = old["pages"] if valid and isinstance(old.get("pages"), dict) else {}
+        self.old_outputs: list[str] = old["outputs"] if valid and isinstance(old.get("outputs"), list) else []
+        self.pages: dict[str, dict] = {}
+        self.kept = self.made = 0
+
+    def full_key(self, key: str) -> str:
+        return digest([self.frame, key])
+
+    def kept_entry(self, uri: str, key: str | None, dest: str) -> dict | None:
+        """The last build's entry for this page, when its key is unchanged and its file is as written."""
+        entry = self.old.get(uri)
+        if key is None or not isinstance(entry, dict) or entry.get("key") != self.full_key(key):
+            return None
+        try:
+            stat = os.stat(dest)
+        except OSError:
+            return None
+        if (stat.st_size, stat.st_mtime_ns) != (entry.get("size"), entry.get("mtime_ns")):
+            return None
+        self.pages[uri] = entry
+        self.kept += 1
+        return entry
+
+    def wrote(self, uri: str, key: str | None, dest: str, title: str | None = None,
+              search: list | None = None) -> None:
+        """A page was made and written: remember it for the next build."""
+        self.made += 1
+        if key is None:
+            return
+        try:
+            stat = os.stat(dest)
+        except OSError:
+            return
+        self.pages[uri] = {"key": self.full_key(key), "size": stat.st_size, "mtime_ns": stat.st_mtime_ns,
+                           "title": title, "search": search}
+
+    def remove_stale(self, outputs: set[str]) -> int:
+        """Delete files the last build wrote that this build does not (a removed unit's pages): a build
+        that keeps pages does not empty the folder first, and must end as a full build would."""
+        removed = 0
+        for name in self.old_outputs:
+            if not isinstance(name, str) or name in outputs:
+                continue
+            path = (self.site_dir / name)
+            if path.resolve().is_relative_to(self.site_dir) and path.is_file() and not path.is_symlink():
+                path.unlink()
+                removed += 1
+        return removed
+
+    def save(self, outputs: set[str]) -> None:
+        self.cache.put_note(KIND, str(self.site_dir),
+                            {"format": FORMAT, "pages": self.pages, "outputs": sorted(outputs)})
+
+
+def has_index(records_dir: Path, site_dir: Path) -> bool:
+    """A previous build into this folder left an index: the next build may keep its pages."""
+    note = ParseCache(records_dir).note(KIND, str(Path(site_dir).resolve()))
+    return isinstance(note, dict) and note.get("format") == FORMAT
