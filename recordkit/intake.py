@@ -42,6 +42,11 @@ def check_new_events(loaded: Loaded, events: list[tuple[NewEvent, Source]], toda
     for event, source in events:
         problems += [f"{source}: {message}"
                      for message in event_problems(as_model_event(event, source), loaded.portfolio, today)]
+        if event.action is m.Action.REPLACE:  # retiring it then would leave its later events invalid
+            later = [e.date for e in loaded.portfolio.events_for(event.device) if e.date > event.date]
+            if later:
+                problems.append(f"{source}: dated {event.date}, but '{event.device}' has events up to {max(later)}: "
+                                "a replacement is dated on or after the old device's last event")
         if event.record_key in recorded:
             when = f"{event.date} {event.when}" if event.when else str(event.date)
             problems.append(f"{source}: already recorded: {event.action} of {event.device} on {when} "

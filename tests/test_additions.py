@@ -224,6 +224,22 @@ def test_replace_logs_adds_links_and_keeps_the_test_history_of_the_position(tmp_
     assert f"hall-smoke-2 (was hall-smoke) {month_start:%B %Y}: fail" in html  # the old failure keeps its month
 
 
+def test_replace_dated_before_the_old_devices_last_event_writes_nothing(tmp_path):
+    folder = tmp_path / "r"
+    assert run_cli("init", "-r", str(folder), "--no-input").returncode == 0
+    assert run_cli("add", "device", "-r", str(folder), "--unit", "my-property/home", "--id", "hall-smoke",
+                   "--kind", "smoke", "--room", "hall", "--manufactured", "2024-01", "--date", "2024-02-01").returncode == 0
+    assert run_cli("log", "my-property/home/hall-smoke", "test", "--result", "pass", "-r", str(folder),
+                   "--date", "2025-03-10").returncode == 0
+    before = {p: p.read_bytes() for p in folder.rglob("*.yaml")}
+    result = run_cli("replace", "my-property/home/hall-smoke", "--new-id", "hall-smoke-2", "--manufactured", "2025-01",
+                     "-r", str(folder), "--date", "2025-03-01")
+    assert result.returncode == 1
+    assert "has events up to 2025-03-10" in result.stderr
+    assert {p: p.read_bytes() for p in folder.rglob("*.yaml")} == before  # the records still load as they did
+    assert run_cli("check", "-r", str(folder)).returncode == 0
+
+
 def test_init_in_a_terminal_asks_for_what_is_missing(tmp_path):
     import os
     import pty

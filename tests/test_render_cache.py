@@ -1,0 +1,149 @@
+"""The render cache: a build into the last build's folder keeps unchanged pages, and ends byte for byte
+as a full build into an empty folder would."""
+from __future__ import annotations
+
+import re
+import shutil
+import tempfile
+from datetime import date
+from pathlib import Path
+
+from click.testing import CliRunner
+from hypothesis import HealthCheck, Phase, given, settings, strategies as st
+
+from recordkit.cli import main
+from recordkit.demo_portfolio import generate
+from recordkit.loader import load_records
+from recordkit.mkdocs_plugin import build_site
+
+from .conftest import REPO
+
+AS_OF = date(2026, 12, 1)  # the demo records' story date
+
+
+def tree(folder: Path) -> dict[str, bytes]:
+    return {p.relative_to(folder).as_posix(): p.read_bytes() for p in sorted(folder.rglob("*")) if p.is_file()}
+
+
+def assert_same_tree(kept: Path, full: Path) -> None:
+    a, b = tree(kept), tree(full)
+    assert sorted(a) == sorted(b), set(a) ^ set(b)
+    differ = [name for name in a if a[name] != b[name]]
+    assert not differ, differ[:10]
+
+
+def cli(records: Path, *args: str) -> None:
+    result = CliRunner().invoke(main, [*args[:1], "-r", str(records), *args[1:]] if args[0] != "add"
+                                else [*args[:2], "-r", str(records), *args[2:]], catch_exceptions=False)
+    assert result.exit_code == 0, result.output
+
+
+def in_service(records: Path) -> list[str]:
+    loaded = load_records(records, AS_OF)
+    retired = {e.device for e in loaded.portfolio.events if e.action.value == "replace"}
+    return sorted(loc.device.uid for loc in loaded.portfolio.devices.values()
+                  if loc.device.kind.value != "listening_node" and loc.device.uid not in retired
+                  and loc.device.installed < date(2026, 11, 10))  # before any date log_test gives
+
+
+# One edit a user might make between builds, each a function of (records folder, a number to vary it).
+def log_test(records: Path, n: int) -> None:
+    devices = in_service(records)
+    cli(records, "log", devices[n % len(devices)], "test", "--result", "pass" if n % 3 else "fail",
+        "--date", f"2026-11-{10 + n % 19:02d}", "--again", "--by", f"tester {n}")
+
+
+def add_device(records: Path, n: int) -> None:
+    cli(records, "add", "device", "--unit", "tansy-house/flat-1", "--id", f"added-{n}", "--kind", "co",
+        "--room", "kitchen", "--manufactured", "2025-01", "--date", "2026-11-01")
+
+
+def replace_device(records: Path, n: int) -> None:
+    devices = [d for d in in_service(records) if d.startswith("bramble-cottage/")]
+    old = devices[n % len(devices)]
+    cli(records, "replace", old, "--new-id", f"{old.rsplit('/', 1)[1]}-r{n}", "--manufactured", "2026-10",
+        "--date", "2026-11-30")  # after every logged test
+
+
+def edit_record(records: Path, n: int) -> None:
+    path = records / "bramble-cottage.yaml"
+    text = path.read_text()
+    path.write_text(text.replace("wall, 2 m from the stove", f"wall, {2 + n % 3} m from the stove", 1)
+                    if n % 2 else text.replace("name: Bramble Cottage\n", f"name: Bramble Cottage {n}\n", 1))
+
+
+def edit_policy(records: Path, n: int) -> None:
+    path = records / "policy.yaml"
+    text = path.read_text()
+    path.write_text(re.sub(r"value: \d+ days", f"value: {30 + n % 40} days", text, count=1))
+
+
+def edit_page(records: Path, n: int) -> None:
+    path = records / "pages" / "about-the-demo.md"
+    path.write_text(path.read_text() + f"\nA line added by edit {n}.\n")
+
+
+EDITS = [log_test, add_device, replace_device, edit_record, edit_policy, edit_page]
+
+
+# Each example builds the site several times: a few examples, and no shrinking (the failing edits print).
+@settings(max_examples=6, deadline=None, suppress_health_check=[HealthCheck.too_slow],
+          phases=[Phase.explicit, Phase.reuse, Phase.generate])
+@given(st.lists(st.tuples(st.sampled_from(EDITS), st.integers(0, 50)), min_size=1, max_size=4, unique_by=lambda e: e[0]))
+def test_kept_pages_build_the_same_site_as_a_full_build(edits):
+    with tempfile.TemporaryDirectory() as work:
+        records, site = Path(work) / "records", Path(work) / "site"
+        shutil.copytree(REPO / "records", records, ignore=shutil.ignore_patterns(".recordkit"))
+        build_site(records, AS_OF, site)
+        for edit, n in edits:
+            edit(records, n)
+            build_site(records, AS_OF, site)
+        full = build_site(records, AS_OF, Path(work) / "full")
+        assert_same_tree(site, full)
+
+
+def test_one_logged_event_makes_only_its_unit_and_property_pages_again(tmp_path, monkeypatch):
+    from recordkit import mkdocs_plugin
+
+    records, site = tmp_path / "records", tmp_path / "site"
+    generate(records, 200, 1, as_of=AS_OF)
+    build_site(records, AS_OF, site)
+    made: list[str] = []  # every page with a render key that is made (pages through MkDocs, sheets copied)
+    content, copy = mkdocs_plugin.MadeFile.content_string, mkdocs_plugin.MadeFile.copy_file
+
+    def note(file) -> None:
+        if file.made.key is not None:
+            made.append(file.src_uri)
+    monkeypatch.setattr(mkdocs_plugin.MadeFile, "content_string",
+                        property(lambda self: note(self) or content.fget(self)))
+    monkeypatch.setattr(mkdocs_plugin.MadeFile, "copy_file",
+                        lambda self, dirty=False: (self.kept is None and note(self)) or copy(self, dirty))
+
+    build_site(records, AS_OF, site)
+    assert made == []  # nothing changed: no page of a unit or property is made again
+
+    device = sorted(load_records(records, AS_OF).portfolio.devices)[7]
+    prop, unit, _ = device.split("/")
+    cli(records, "log", device, "test", "--result", "pass", "--date", "2026-11-20", "--again")
+    build_site(records, AS_OF, site)
+    # The unit's page and its four sheets, the property's page and its checklist: nothing else.
+    assert sorted(made) == sorted([f"properties/{prop}.md", f"checklists/{prop}.html",
+                                   f"properties/{prop}/{unit}.md", f"checklists/{prop}/{unit}.html",
+                                   f"checklists/{prop}/{unit}-monthly.html", f"walkround/{prop}/{unit}.html",
+                                   f"labels/{prop}/{unit}.html"])
+    assert_same_tree(site, build_site(records, AS_OF, tmp_path / "full"))
+
+
+def test_the_same_records_named_two_ways_share_one_cache(tmp_path, monkeypatch):
+    records = tmp_path / "data" / "records"
+    shutil.copytree(REPO / "records", records, ignore=shutil.ignore_patterns(".recordkit"))
+    load_records(records, AS_OF)
+    from recordkit import loader
+
+    parsed: list[str] = []
+    original = loader._Builder.add_file
+    monkeypatch.setattr(loader._Builder, "add_file", lambda self, tree, path: parsed.append(path) or original(self, tree, path))
+    monkeypatch.chdir(tmp_path / "data")
+    again = load_records(Path("..") / "data" / "records", AS_OF)  # a relative name for the same folder
+    assert not again.problems
+    assert parsed == []  # every file came from the cache
