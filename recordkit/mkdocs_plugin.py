@@ -22,6 +22,7 @@ from mkdocs.structure.files import File, Files, InclusionLevel
 from .cautions import SHORT
 from .checks import evaluate
 from .loader import load_records
+from .logbook import WORK_DIR
 from .recordfiles import SITE_CONFIGS
 from .render.labels import ASSETS, DEFAULT_SITE_CONFIG
 from .render.site import Page, part_marker, site_pages
@@ -278,8 +279,39 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
 
     def on_serve(self, server, /, *, config: MkDocsConfig, builder):
         if self.records_dir:
-            server.watch(str(self.records_dir))
+            watch_records(server, self.records_dir)
         return server
+
+
+def watch_records(server, records_dir: Path) -> None:
+    """Rebuild when a record changes, but not when recordkit writes its own files (the parse and render
+    caches, locks, the journal, all under .recordkit/): those would start a second and a third rebuild
+    for one saved edit. MkDocs' own `watch` cannot leave a folder out, so the handler is scheduled on
+    its observer and wakes its build loop the way `watch` does; should those parts change in a later
+    MkDocs, the whole folder is watched as before."""
+    import watchdog.events
+
+    own = os.path.join(os.path.abspath(records_dir), WORK_DIR)
+    observer, wake = getattr(server, "observer", None), getattr(server, "_rebuild_cond", None)
+    if observer is None or wake is None or not hasattr(server, "_want_rebuild"):
+        server.watch(str(records_dir))
+        return
+
+    def ours(path: str) -> bool:
+        path = os.path.abspath(path)
+        return path == own or path.startswith(own + os.sep)
+
+    def changed(event) -> None:
+        paths = [p for p in (event.src_path, getattr(event, "dest_path", "")) if p]
+        if event.is_directory or all(ours(os.fsdecode(p)) for p in paths):
+            return
+        with wake:
+            server._want_rebuild = True
+            wake.notify_all()
+
+    handler = watchdog.events.FileSystemEventHandler()
+    handler.on_any_event = changed
+    observer.schedule(handler, os.path.abspath(records_dir), recursive=True)
 
 
 def _search_index(config: MkDocsConfig):
@@ -395,11 +427,37 @@ def serve_site(records: Path, as_of: date | None, address: str, config_file: Pat
     with tempfile.TemporaryDirectory(prefix="recordkit-pages-") as empty_pages:
         settings, anchor = site_settings(records, config_file, Path(empty_pages))
         settings.pop("site_dir", None)  # MkDocs serves from a temporary folder of its own
+        shown = _ServeLog.attach()
         try:
+            # "dirty": each rebuild keeps the pages whose render key is unchanged (see render_cache)
             serve(config_file=str(DEFAULT_SITE_CONFIG), config_file_path=str(anchor), dev_addr=address,
-                  livereload=True, **settings)
+                  livereload=True, build_type="dirty", **settings)
         except MkDocsException as exc:
             raise SiteBuildError(str(exc)) from None
+        finally:
+            logging.getLogger("mkdocs").removeHandler(shown)
+
+
+class _ServeLog(logging.Filter):
+    """What `serve` prints: where it serves, each change seen and each rebuild's time, and every warning."""
+
+    SHOWN = ("Serving on", "Detected file changes", "Documentation built in", "recordkit: built in")
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        message = str(record.msg)
+        if message.startswith("[") and "] " in message[:12]:  # MkDocs' server stamps its own lines "[hh:mm:ss] "
+            message = message.split("] ", 1)[1]
+        return record.levelno >= logging.WARNING or message.startswith(self.SHOWN)
+
+    @classmethod
+    def attach(cls) -> logging.Handler:
+        handler = logging.StreamHandler()
+        handler.setFormatter(logging.Formatter("%(message)s"))
+        handler.addFilter(cls())
+        logger = logging.getLogger("mkdocs")
+        logger.addHandler(handler)
+        logger.setLevel(logging.INFO)
+        return handler
 
 
 def _pass_arguments(records: Path, as_of: date | None) -> None:
