@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 from datetime import date, time
 from pathlib import Path
 
-from . import csvlog, sheets
+from . import csvlog, progress, sheets
 from . import model as m
 from .errors import Source
 from .loader import Loaded
@@ -120,7 +120,9 @@ def read_csv(path: Path, loaded: Loaded, today: date, order: str | None = None,
             result.bad_rows.update(n for n, _, _ in rows)
             return result
     existing = {e.record_key for e in loaded.portfolio.events}
+    checking = progress.bar(len(rows), "Checking rows", "row")
     for row_number, cells, messages in rows:
+        checking.update()
         source = Source(shown, row_number)
         row, row_messages = csvlog.read_row(cells, order)
         messages = messages + row_messages
@@ -137,6 +139,7 @@ def read_csv(path: Path, loaded: Loaded, today: date, order: str | None = None,
             result.problems += [f"{source}: {message}" for message in messages]
         else:
             result.events.append((event, source))
+    checking.close()
     return result
 
 

@@ -14,7 +14,7 @@ from datetime import date, datetime, timezone
 from pathlib import Path
 from typing import Any
 
-from . import csvlog
+from . import csvlog, progress
 from . import model as m
 from .cache import ParseCache, decode_events, decode_property, encode_events, encode_property, record_digests
 from .errors import Problem, Problems, Source
@@ -109,7 +109,9 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
     newest = 0.0
     digests: list[tuple[str, str]] = []
     record_hashes = Digests() if cache else None
+    reading = progress.bar(len(paths), "Reading records", "file")
     for path in paths:
+        reading.update()
         shown = str(path)
         inside = path.relative_to(root).as_posix()  # the cache's name for the file, however root is written
         is_policy = path.parent == root and path.name == POLICY_FILE
@@ -147,6 +149,7 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
             parse_cache.put(inside, stat, digest, payload)
             if record_hashes is not None:
                 record_hashes.add(payload["digests"], inside)
+    reading.close()
     # The checks across files (an event's device exists, was in service, ...) depend only on the files'
     # content and, for "not after the as-of date", on the newest event: skip them when this exact set of
     # files loaded cleanly before.

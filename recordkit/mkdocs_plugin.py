@@ -19,6 +19,7 @@ from mkdocs.exceptions import Abort, MkDocsException, PluginError
 from mkdocs.plugins import BasePlugin, event_priority
 from mkdocs.structure.files import File, Files, InclusionLevel
 
+from . import progress
 from .cautions import SHORT
 from .checks import evaluate
 from .loader import load_records
@@ -57,6 +58,7 @@ class MadeFile(File):
     made: Page  # (MkDocs' own `page` attribute is the page it builds)
     index: RenderIndex | None = None
     kept: dict | None = None  # the render cache's entry when the last build's file is kept
+    bar: progress.Bar | None = None
 
     @classmethod
     def of(cls, config: MkDocsConfig, page: Page, inclusion: InclusionLevel,
@@ -88,6 +90,8 @@ class MadeFile(File):
             handle.write(self.made.make())
         if self.index is not None:
             self.index.wrote(self.src_uri, self.made.key, self.abs_dest_path)
+        if self.bar is not None:
+            self.bar.update()
 
 
 class _QuietDirty(logging.Filter):
@@ -113,6 +117,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         self.indexed = 0
         self.nav_names: list = []
         self.started = 0.0
+        self.bar: progress.Bar = progress.bar(0, "", "")
 
     def on_config(self, config: MkDocsConfig) -> MkDocsConfig:
         self.started = time.perf_counter()
@@ -197,6 +202,12 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         for file in own:
             if file.is_documentation_page():
                 file.is_modified = lambda: True  # its navigation may have changed: always made again
+        # Progress: a page is converted, then written; a sheet is written.
+        steps = sum(2 if f.is_documentation_page() else 1 for f in self.made_files if f.kept is None) \
+            + 2 * sum(1 for f in own if f.is_documentation_page())
+        self.bar = progress.bar(steps, "Building the site", "step")
+        for made in self.made_files:
+            made.bar = self.bar
         for asset in (CSS, SHIM, MARK, *WALKROUND):
             files.append(File.generated(config, asset, abs_src_path=str(ASSETS / Path(asset).name)))
         self.files = files
@@ -239,8 +250,13 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             self.indexed = len(search.entries)
         return context
 
+    def on_page_content(self, html: str, /, *, page, config: MkDocsConfig, files: Files) -> str:
+        self.bar.update()
+        return html
+
     def on_post_page(self, output: str, /, *, page, config: MkDocsConfig) -> str:
         """Put the long tables and histories in, after Markdown and the search index have seen the page."""
+        self.bar.update()
         made = self.pages.get(page.file.src_uri)
         if made and made.parts:
             for name, html in made.parts().items():
@@ -268,11 +284,13 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             index.save(outputs)
             log.info("recordkit: built in %.1f s: %d page(s) made, %d kept as they were",
                      time.perf_counter() - self.started, index.made, index.kept)
+        self.bar.close()
         self.pages = {}  # let the records go: `mkdocs serve` loads them afresh on the next build
         self.made_files = []
         self.files = None
 
     def on_build_error(self, *, error: Exception) -> None:
+        self.bar.close()
         self.pages = {}
         self.made_files = []
         self.files = None

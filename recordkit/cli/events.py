@@ -10,7 +10,8 @@ import click
 from ..checks import evaluate
 from ..errors import Source
 from .options import (command, EXIT_ERRORS, as_of_day, as_of_option, date_option, emit, format_option, load,
-                      load_or_exit, now, out_option, print_json, records_option, today, utf8_text)
+                      load_or_exit, now, out_option, print_json, quiet_option, records_option, today,
+                      utf8_text)
 
 file_option = click.option("--file", "log_file", metavar="PATH",
                            help="Append to this file, relative to the records folder "
@@ -143,6 +144,7 @@ def log_command(words, records_dir: Path, unit_uid, result, when, by, note, agai
 @click.option("--skip-bad", is_flag=True, help="Import the good rows even when some rows are bad.")
 @click.option("--dry-run", is_flag=True, help="Show what would be added; write nothing.")
 @file_option
+@quiet_option
 def import_command(csv_file: Path, records_dir: Path, order, columns, device_template, sheet_name, skip_bad,
                    dry_run, log_file) -> None:
     """Import events from a spreadsheet: CSV, or Excel .xlsx (columns: date, device,

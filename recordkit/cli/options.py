@@ -14,6 +14,7 @@ from pathlib import Path
 
 import click
 
+from .. import progress
 from ..loader import Loaded, load_records
 
 EXIT_OK, EXIT_ERRORS, EXIT_OVERDUE = 0, 1, 3
@@ -59,6 +60,10 @@ records_option = click.option(
     "-r", "--records", "records_dir", default="records", show_default=True, envvar=RECORDS_ENV,
     show_envvar=True, type=click.Path(file_okay=False, path_type=Path),
     help="The records folder.")
+quiet_option = click.option(
+    "-q", "--quiet", is_flag=True, expose_value=False, is_eager=True,
+    callback=lambda ctx, param, value: progress.quiet(value),
+    help="No progress bar (one shows on a terminal once the work takes more than about two seconds).")
 as_of_option = click.option(
     "--as-of", "as_of", type=click.DateTime(formats=["%Y-%m-%d"]), default=None, metavar="YYYY-MM-DD",
     help="Judge the records as of this date (default: today). A past date shows what the records said "

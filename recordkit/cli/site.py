@@ -8,7 +8,7 @@ import click
 
 from ..checks import evaluate
 from .options import (EXIT_ERRORS, as_of_day, as_of_option, command, folder_hint, load_or_exit, out_option,
-                      records_option)
+                      quiet_option, records_option)
 
 config_option = click.option(
     "--config", "config_file", default=None, type=click.Path(exists=True, dir_okay=False, path_type=Path),
@@ -35,6 +35,7 @@ def register(main: click.Group) -> None:
 @config_option
 @click.option("--force", is_flag=True, help="Build into a non-empty folder that is not a previous build "
               "(its contents are deleted).")
+@quiet_option
 def build(records_dir: Path, as_of, out: Path | None, config_file: Path | None, force: bool) -> None:
     """Build the static site from the records (MkDocs + Material, through our plugin).
 
