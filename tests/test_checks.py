@@ -159,3 +159,27 @@ def test_removed_in_the_future_is_still_in_service(records):
                                         manufactured="2024-01", installed="2024-02-01", removed="2026-12-15"))
     assert ("s1", "test") in tasks(folder)
     assert ("s1", "test") not in tasks(folder, date(2026, 12, 15))  # retired on that day
+
+
+def test_a_few_properties_alone_give_the_same_findings_as_the_whole_portfolio():
+    # `log` prints what is next for the devices it logged from their properties alone: it must be what
+    # the whole portfolio's evaluation says about them, listening nodes and coverage included.
+    import tempfile
+    from pathlib import Path
+
+    from recordkit.checks import evaluate
+    from recordkit.demo_portfolio import generate
+    from recordkit.loader import load_records
+
+    from .conftest import DEMO_AS_OF, REPO
+
+    with tempfile.TemporaryDirectory() as work:
+        generate(Path(work), 12, 2, as_of=DEMO_AS_OF)
+        portfolios = [load_records(REPO / "records", DEMO_AS_OF), load_records(Path(work), DEMO_AS_OF)]
+        for loaded in portfolios:
+            whole = evaluate(loaded.portfolio, loaded.policy, DEMO_AS_OF)
+            for prop in loaded.portfolio.properties:
+                alone = evaluate(loaded.portfolio.only({prop.id}), loaded.policy, DEMO_AS_OF)
+                mine = [f for f in whole if f.unit.split("/")[0] == prop.id]
+                assert [f for f in alone if f.unit.split("/")[0] == prop.id] == mine
+                assert mine  # every property has something due or a task on record

@@ -88,7 +88,7 @@ def log_command(words, records_dir: Path, unit_uid, result, when, by, note, agai
 
     Examples:  recordkit log tansy-house/flat-1/landing-smoke test --result pass --by tenant
                recordkit log --unit tansy-house/flat-1 test --result pass --date '2026-12-01 10:30'"""
-    from ..intake import IntakeError, unit_devices
+    from ..intake import IntakeError, as_model_event, unit_devices
     from ..logbook import NewEvent
     from ..model import Action, Result
 
@@ -118,8 +118,11 @@ def log_command(words, records_dir: Path, unit_uid, result, when, by, note, agai
               for uid in devices]
     refuse_problems(loaded, events, today(), again)
     write_or_exit(records_dir, events, log_file, again)
-    reloaded = load(records_dir, today())
-    findings = [f for f in evaluate(reloaded.portfolio, reloaded.policy, today()) if f.device in devices]
+    # What is next for each device, from the records as loaded plus what was just written (not a second
+    # load), worked out on the devices' own properties only.
+    added = tuple(as_model_event(event, Source(log_file or "log", 0)) for event in events)
+    touched = loaded.portfolio.only({uid.split("/")[0] for uid in devices}, added)
+    findings = [f for f in evaluate(touched, loaded.policy, today()) if f.device in devices]
     for event in events:
         click.echo(f"  {event.date} {event.device}: {event.action}"
                    + (f" {event.result}" if event.result else "") + (f" by {event.by}" if event.by else ""))
