@@ -14,7 +14,7 @@ in a child process, timed from outside, peak memory from the child's own rusage)
 Floors, built in the same run:
   like pages     bare MkDocs (no recordkit plugin) with the same theme, plugins and Markdown extensions,
                  building the very pages recordkit generated (written out as files first)
-  one-line       bare MkDocs, the same configuration, as many one-line pages
+  one-line       bare MkDocs, the same configuration, as many one-line Markdown pages
 Not a test: it prints figures for a person to read.
 """
 from __future__ import annotations
@@ -77,17 +77,17 @@ def mkdocs(config: Path) -> tuple[float, float]:
 
 
 def like_pages_floor(records: Path, work: Path) -> tuple[float, int]:
-    """Bare MkDocs building the pages recordkit makes, as files: (seconds, pages)."""
+    """Bare MkDocs building the pages recordkit makes, as files: (seconds, Markdown pages among them)."""
     loaded = load_records(records, AS_OF)
     findings = evaluate(loaded.portfolio, loaded.policy, AS_OF)
     docs = work / "like-docs"
-    count = 0
+    markdown = 0
     for page in site_pages(loaded, findings, AS_OF, False, None):
         path = docs / page.src_uri
         path.parent.mkdir(parents=True, exist_ok=True)
         path.write_text(page.make(), encoding="utf-8")
-        count += 1
-    return mkdocs(floor_config(work, docs))[0], count
+        markdown += path.suffix == ".md"
+    return mkdocs(floor_config(work, docs))[0], markdown
 
 
 def one_line_floor(pages: int, work: Path) -> float:

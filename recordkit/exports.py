@@ -1,7 +1,6 @@
 """Data out: devices with their next tasks, events, and an iCalendar file of the tasks."""
 from __future__ import annotations
 
-import re
 from datetime import date, timedelta
 
 from . import model as m
@@ -109,15 +108,18 @@ def calendar_events(portfolio: m.Portfolio, findings: list[Finding], as_of: date
             "TRIGGER:" + _duration(ahead), "END:VALARM"]
 
 
-_TEXT_ESCAPES = str.maketrans({"\\": "\\\\", ";": "\\;", ",": "\\,", "\n": "\\n", "\r": ""})
-_ESCAPE_OR_CHAR = re.compile(r"\\.|.", re.DOTALL)
-_CONTROLS = {c: None for c in range(32) if c not in (9, 10, 13)} | {127: None}
+# One table for both steps of RFC 5545 TEXT: the escapes, and dropping the control characters TEXT may
+# not hold (their keys do not overlap, so one pass does both).
+_TEXT_TABLE = str.maketrans({"\\": "\\\\", ";": "\\;", ",": "\\,", "\n": "\\n", "\r": ""}
+                            | {c: None for c in range(32) if c not in (9, 10, 13)} | {127: None})
 
 
 def _text(value: str) -> str:
     """An RFC 5545 TEXT value (§3.3.11): backslash, semicolon, comma and line breaks escaped; other
     control characters, which TEXT may not hold, dropped."""
-    return value.replace("\r\n", "\n").replace("\r", "\n").translate(_CONTROLS).translate(_TEXT_ESCAPES)
+    if "\r" in value:
+        value = value.replace("\r\n", "\n").replace("\r", "\n")
+    return value.translate(_TEXT_TABLE)
 
 
 def _duration(delta: timedelta) -> str:
@@ -132,31 +134,20 @@ def _duration(delta: timedelta) -> str:
 def _fold(line: str, limit: int = 75) -> str:
     """RFC 5545 §3.1: lines of at most 75 octets; longer ones continue after CRLF and a space,
     never splitting a UTF-8 character or a backslash escape (some readers mishandle a split one)."""
-    if not line.isascii():
-        return line if len(line.encode("utf-8")) <= limit else _fold_chars(line, limit)
+    if len(line) <= limit and (line.isascii() or len(line.encode("utf-8")) <= limit):
+        return line  # most lines: nothing to fold
+    data = line.encode("utf-8")
     parts, start, room = [], 0, limit
-    while len(line) - start > room:  # ASCII: one octet a character, so cut by slicing
+    while len(data) - start > room:
         end = start + room
-        run = end - 1
-        while run >= 0 and line[run] == "\\":
-            run -= 1
-        if (end - 1 - run) % 2:  # line[end - 1] opens an escape whose second half is line[end]
+        while data[end] & 0xC0 == 0x80:  # a UTF-8 continuation byte: cut before its character instead
             end -= 1
-        parts.append(line[start:end])
+        run = end - 1
+        while run >= 0 and data[run] == 0x5C:  # backslashes just before the cut
+            run -= 1
+        if (end - 1 - run) % 2:  # data[end - 1] opens an escape whose second half is data[end]
+            end -= 1
+        parts.append(data[start:end])
         start, room = end, limit - 1  # a continuation line starts with a space
-    parts.append(line[start:])
-    return "\r\n ".join(parts)
-
-
-def _fold_chars(line: str, limit: int = 75) -> str:
-    """_fold for text with multi-byte characters: measured a character (or escape) at a time."""
-    parts, current, size = [], [], 0
-    for char in _ESCAPE_OR_CHAR.findall(line):
-        width = len(char.encode("utf-8"))
-        if size + width > limit:
-            parts.append("".join(current))
-            current, size = [], 1  # the continuation line's leading space
-        current.append(char)
-        size += width
-    parts.append("".join(current))
-    return "\r\n ".join(parts)
+    parts.append(data[start:])
+    return b"\r\n ".join(parts).decode("utf-8")
