@@ -7,11 +7,13 @@ under `mkdocs serve`.
 """
 from __future__ import annotations
 
+import contextlib
 import logging
 import os
 import time
 from datetime import date
 from pathlib import Path
+from typing import Iterator
 
 from mkdocs.config import base, config_options
 from mkdocs.config.defaults import MkDocsConfig
@@ -21,7 +23,7 @@ from mkdocs.structure.files import File, Files, InclusionLevel
 
 from . import progress
 from .cautions import SHORT
-from .checks import evaluate
+from .findings_cache import cached_evaluate
 from .loader import load_records
 from .logbook import WORK_DIR
 from .recordfiles import SITE_CONFIGS
@@ -149,7 +151,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                                                f"{config.config_file_path}: plugins.recordkit.due_soon_days",
                                                local=True))
         loaded.policy = policy
-        findings = evaluate(loaded.portfolio, policy, as_of)
+        findings = cached_evaluate(loaded, policy, as_of)
         self.pages = {page.src_uri: page for page in site_pages(loaded, findings, as_of, config.use_directory_urls,
                                                                  config.site_url)}
         self.nav_names = [(p.id, p.name) for p in loaded.portfolio.properties]
@@ -402,8 +404,7 @@ def build_site(records: Path, as_of: date | None, out: Path | None, config_file:
     from .render_cache import has_index
 
     config_file = config_file or find_site_config(records)
-    _pass_arguments(records, as_of)
-    with tempfile.TemporaryDirectory(prefix="recordkit-pages-") as empty_pages:
+    with _pass_arguments(records, as_of), tempfile.TemporaryDirectory(prefix="recordkit-pages-") as empty_pages:
         settings, anchor = site_settings(records, config_file, Path(empty_pages))
         if out is None:
             out = (anchor.resolve().parent / settings["site_dir"]) if config_file and settings.get("site_dir") \
@@ -441,8 +442,7 @@ def serve_site(records: Path, as_of: date | None, address: str, config_file: Pat
     from mkdocs.commands.serve import serve
 
     config_file = config_file or find_site_config(records)
-    _pass_arguments(records, as_of)
-    with tempfile.TemporaryDirectory(prefix="recordkit-pages-") as empty_pages:
+    with _pass_arguments(records, as_of), tempfile.TemporaryDirectory(prefix="recordkit-pages-") as empty_pages:
         settings, anchor = site_settings(records, config_file, Path(empty_pages))
         settings.pop("site_dir", None)  # MkDocs serves from a temporary folder of its own
         shown = _ServeLog.attach()
@@ -478,11 +478,24 @@ class _ServeLog(logging.Filter):
         return handler
 
 
-def _pass_arguments(records: Path, as_of: date | None) -> None:
-    os.environ[ENV_RECORDS] = str(records)
-    if as_of:
-        os.environ[ENV_AS_OF] = as_of.isoformat()
-    os.environ.setdefault("NO_MKDOCS_2_WARNING", "1")
+@contextlib.contextmanager
+def _pass_arguments(records: Path, as_of: date | None) -> Iterator[None]:
+    """The records folder and as-of date, for the plugin, through the environment (MkDocs builds it from
+    its configuration); put back as they were afterwards, so a program that builds twice is not misled."""
+    wanted = {ENV_RECORDS: str(records), ENV_AS_OF: as_of.isoformat() if as_of else None,
+              "NO_MKDOCS_2_WARNING": os.environ.get("NO_MKDOCS_2_WARNING", "1")}
+    before = {name: os.environ.get(name) for name in wanted}
+    for name, value in wanted.items():
+        if value is not None:
+            os.environ[name] = value
+    try:
+        yield
+    finally:
+        for name, value in before.items():
+            if value is None:
+                os.environ.pop(name, None)
+            else:
+                os.environ[name] = value
 
 
 def _shown(path: Path) -> Path:

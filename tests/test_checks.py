@@ -183,3 +183,27 @@ def test_a_few_properties_alone_give_the_same_findings_as_the_whole_portfolio():
                 mine = [f for f in whole if f.unit.split("/")[0] == prop.id]
                 assert [f for f in alone if f.unit.split("/")[0] == prop.id] == mine
                 assert mine  # every property has something due or a task on record
+            ids = {p.id for p in loaded.portfolio.properties}
+            assert all(f.unit.split("/")[0] in ids for f in whole)  # so the properties' findings are all of them
+
+
+def test_findings_kept_per_property_are_the_findings_worked_out_afresh(tmp_path):
+    import shutil
+
+    from recordkit.checks import evaluate
+    from recordkit.findings_cache import cached_evaluate
+    from recordkit.loader import load_records
+
+    from .conftest import DEMO_AS_OF, REPO
+
+    records = tmp_path / "records"
+    shutil.copytree(REPO / "records", records, ignore=shutil.ignore_patterns(".recordkit"))
+    for step in range(3):  # cold, warm, and warm after one property's record changed
+        loaded = load_records(records, DEMO_AS_OF)
+        assert cached_evaluate(loaded, loaded.policy, DEMO_AS_OF) == evaluate(loaded.portfolio, loaded.policy,
+                                                                                DEMO_AS_OF)
+        path = records / "bramble-cottage.yaml"
+        path.write_text(path.read_text().replace("manufactured: 2018-10", f"manufactured: 201{7 - step}-10", 1))
+    changed = load_records(records, DEMO_AS_OF)
+    later = date(2027, 6, 1)  # another as-of date: nothing kept may be reused
+    assert cached_evaluate(changed, changed.policy, later) == evaluate(changed.portfolio, changed.policy, later)

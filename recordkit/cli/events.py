@@ -8,8 +8,9 @@ from pathlib import Path
 import click
 
 from ..checks import evaluate
+from ..findings_cache import cached_evaluate
 from ..errors import Source
-from .options import (command, EXIT_ERRORS, as_of_day, as_of_option, date_option, emit, format_option, load,
+from .options import (command, EXIT_ERRORS, as_of_day, as_of_option, date_option, emit, format_option,
                       load_or_exit, now, out_option, print_json, quiet_option, records_option, today,
                       utf8_text)
 
@@ -209,7 +210,7 @@ def export_command(records_dir: Path, as_of, fmt, table, out) -> None:
 
     day = as_of_day(as_of)
     loaded = load_or_exit(records_dir, day)
-    findings = evaluate(loaded.portfolio, loaded.policy, day)
+    findings = cached_evaluate(loaded, loaded.policy, day)
     if fmt == "json":
         text = json.dumps(export_json(loaded.portfolio, findings, day), indent=1, ensure_ascii=False) + "\n"
     elif table == "events":

@@ -8,6 +8,7 @@ from pathlib import Path
 import click
 
 from ..checks import TASK_ORDER, evaluate
+from ..findings_cache import cached_evaluate
 from ..schedule import State
 from ..status import monitor_line, status_json, status_text
 from .options import (command, EXIT_ERRORS, EXIT_OK, EXIT_OVERDUE, as_of_day, as_of_option, exit_unless_usable,
@@ -78,7 +79,8 @@ def status(records_dir: Path, as_of, fmt: str, show_ok: bool, properties, units,
             raise click.UsageError(f"no {what} {', '.join(map(repr, missing))}")
     chosen = set(properties) | {uid.split("/", 1)[0] for uid in units}
     # Asked about a few properties: their checks alone give the same findings about them.
-    findings = evaluate(loaded.portfolio.only(chosen) if chosen else loaded.portfolio, loaded.policy, day)
+    findings = evaluate(loaded.portfolio.only(chosen), loaded.policy, day) if chosen \
+        else cached_evaluate(loaded, loaded.policy, day)
     findings = [f for f in findings
                 if (not properties or f.unit.split("/", 1)[0] in properties)
                 and (not units or f.unit in units) and (not tasks or f.task in tasks)

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import click
 
-from ..checks import evaluate
+from ..findings_cache import cached_evaluate
 from .options import (EXIT_ERRORS, as_of_day, as_of_option, command, folder_hint, load_or_exit, out_option,
                       quiet_option, records_option)
 
@@ -154,7 +154,7 @@ def unit_sheets(records_dir: Path, day, property_id: str, unit_id: str | None):
     from ..render.checklist import NotFound, property_sheets
 
     loaded = load_or_exit(records_dir, day)
-    findings = evaluate(loaded.portfolio, loaded.policy, day)
+    findings = cached_evaluate(loaded, loaded.policy, day)
     try:
         return property_sheets(loaded, findings, property_id, day, unit_id)
     except NotFound as exc:
@@ -185,7 +185,7 @@ def calendar_command(records_dir: Path, as_of, out: Path) -> None:
 
     day = as_of_day(as_of)
     loaded = load_or_exit(records_dir, day)
-    findings = evaluate(loaded.portfolio, loaded.policy, day)
+    findings = cached_evaluate(loaded, loaded.policy, day)
     with open(out, "wb") as handle:
         handle.write(calendar_ics(loaded.portfolio, findings, day))
     click.echo(f"Wrote {len(calendar_tasks(loaded.portfolio, findings))} task(s) to {out}")
