@@ -61,14 +61,36 @@ def calendar_ics(portfolio: m.Portfolio, findings: list[Finding], as_of: date) -
     Written here rather than with the icalendar library: it took about 1 ms an event, most of a large
     site's build (120,000 tasks at 10,000 units). The tests read every file back with icalendar.
     """
-    lines = ["BEGIN:VCALENDAR", "VERSION:2.0", "PRODID:-//recordkit//alarm maintenance tasks//EN",
-             "X-WR-CALNAME:Alarm maintenance tasks"]
-    for event in calendar_events(portfolio, findings, as_of):
-        lines.append("BEGIN:VEVENT")
-        lines.extend(event)
-        lines.append("END:VEVENT")
-    lines.append("END:VCALENDAR")
-    return ("\r\n".join(map(_fold, lines)) + "\r\n").encode("utf-8")
+    return calendar_text(portfolio, findings, as_of)[0].encode("utf-8")
+
+
+CALENDAR_HEAD = "".join(line + "\r\n" for line in (
+    "BEGIN:VCALENDAR", "VERSION:2.0", "PRODID:-//recordkit//alarm maintenance tasks//EN",
+    "X-WR-CALNAME:Alarm maintenance tasks"))
+CALENDAR_TAIL = "END:VCALENDAR\r\n"
+
+
+def calendar_text(portfolio: m.Portfolio, findings: list[Finding], as_of: date, keys: dict[str, str] | None = None,
+                  kept: dict[str, tuple[str, str]] | None = None) -> tuple[str, dict[str, tuple[str, str]]]:
+    """The calendar file's text and the pieces it is the concatenation of, {name: (key, text)}: its head,
+    one a unit, its tail. A unit whose key (in `keys`, a hash of what its tasks are made of) is that of
+    a piece in `kept`, from the last build, takes that piece's text instead of being written again."""
+    keys, kept = keys or {}, kept or {}
+    by_unit: dict[str, list[Finding]] = {}
+    for finding in calendar_tasks(portfolio, findings):
+        by_unit.setdefault(finding.unit, []).append(finding)
+    pieces: dict[str, tuple[str, str]] = {"(head)": ("head", CALENDAR_HEAD)}
+    for unit, tasks in by_unit.items():
+        key = keys.get(unit)
+        old = kept.get(unit)
+        if key is not None and old is not None and old[0] == key:
+            pieces[unit] = old
+            continue
+        pieces[unit] = (key or "", "".join(
+            "BEGIN:VEVENT\r\n" + "".join(_fold(line) + "\r\n" for line in event) + "END:VEVENT\r\n"
+            for event in calendar_events(portfolio, tasks, as_of)))
+    pieces["(tail)"] = ("tail", CALENDAR_TAIL)
+    return "".join(text for _, text in pieces.values()), pieces
 
 
 def calendar_tasks(portfolio: m.Portfolio, findings: list[Finding]) -> list[Finding]:

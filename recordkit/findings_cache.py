@@ -29,11 +29,12 @@ FORMAT = 1
 
 
 def property_key(digests: Digests, portfolio: m.Portfolio, prop: m.Property, base: str) -> str:
-    heard = portfolio.only({prop.id}).properties  # itself, and what its nodes hear
+    heard = sorted(portfolio.heard(prop))
+    properties = [prop, *(p for p in portfolio.properties if p.id in heard)] if heard else [prop]
     return digest([base, [[p.id, digests.properties.get(p.id),
                            [[u.uid, digests.units.get(u.uid),
                              [digests.events.get(d.uid, []) for d in u.devices]] for u in p.units]]
-                          for p in heard]])
+                          for p in properties]])
 
 
 def encode(findings: list[Finding]) -> dict:

@@ -88,10 +88,17 @@ class MadeFile(File):
         if self.kept is not None:
             return
         os.makedirs(os.path.dirname(self.abs_dest_path), exist_ok=True)
+        pieces = None
+        if self.made.pieces is not None and self.index is not None:
+            text, pieces = self.made.pieces(self.index.pieces_of(self.src_uri, self.abs_dest_path))
+        else:
+            text = self.made.make()
         with open(self.abs_dest_path, "w", encoding="utf-8", newline="") as handle:
-            handle.write(self.made.make())
+            handle.write(text)
         if self.index is not None:
             self.index.wrote(self.src_uri, self.made.key, self.abs_dest_path)
+            if pieces is not None:
+                self.index.wrote_pieces(self.src_uri, self.abs_dest_path, pieces)
         if self.bar is not None:
             self.bar.update()
 

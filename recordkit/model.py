@@ -281,11 +281,15 @@ class Portfolio:
         ids = set(property_ids)
         for prop in self.properties:
             if prop.id in property_ids:
-                ids.update(target.property.id for u in prop.units for d in u.devices if d.listens_to
-                           for _, target in self.listened(d))
+                ids.update(self.heard(prop))
         properties = tuple(p for p in self.properties if p.id in ids)
         events = tuple(e for p in properties for u in p.units for d in u.devices for e in self.events_for(d.uid))
         return Portfolio(properties, events + tuple(added))
+
+    def heard(self, prop: Property) -> set[str]:
+        """The other properties whose alarms this property's listening nodes are meant to hear."""
+        return {target.property.id for u in prop.units for d in u.devices if d.listens_to
+                for _, target in self.listened(d)} - {prop.id}
 
     def listened(self, node: Device) -> list[tuple[Listen, "Located"]]:
         """The alarms a listening node is meant to hear, resolved to devices (unknown ids skipped)."""

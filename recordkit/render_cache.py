@@ -30,7 +30,9 @@ class RenderIndex:
         valid = isinstance(old, dict) and old.get("format") == FORMAT
         self.old: dict[str, Any] = old["pages"] if valid and isinstance(old.get("pages"), dict) else {}
         self.old_outputs: list[str] = old["outputs"] if valid and isinstance(old.get("outputs"), list) else []
+        self.old_pieces: dict[str, Any] = old.get("pieces", {}) if valid and isinstance(old.get("pieces"), dict) else {}
         self.pages: dict[str, dict] = {}
+        self.pieces: dict[str, dict] = {}
         self.kept = self.made = 0
 
     def full_key(self, key: str) -> str:
@@ -64,6 +66,36 @@ class RenderIndex:
         self.pages[uri] = {"key": self.full_key(key), "size": stat.st_size, "mtime_ns": stat.st_mtime_ns,
                            "title": title, "search": search}
 
+    def pieces_of(self, uri: str, dest: str) -> dict[str, tuple[str, str]]:
+        """The pieces of a file made of pieces (the calendar) as the last build wrote them, read back from
+        that file, when it is still exactly as written: {name: (key, text)}."""
+        entry = self.old_pieces.get(uri)
+        try:
+            stat = os.stat(dest)
+            if not isinstance(entry, dict) or (stat.st_size, stat.st_mtime_ns) != (entry["size"], entry["mtime_ns"]):
+                return {}
+            with open(dest, "rb") as handle:
+                data = handle.read(stat.st_size + 1)
+            if len(data) != stat.st_size:
+                return {}
+            return {name: (key, data[start:end].decode("utf-8")) for name, (key, start, end) in entry["at"].items()
+                    if isinstance(key, str) and key and 0 <= start <= end <= len(data)}
+        except (OSError, KeyError, TypeError, ValueError):
+            return {}
+
+    def wrote_pieces(self, uri: str, dest: str, pieces: dict[str, tuple[str, str]]) -> None:
+        """Where in the file just written each piece lies (bytes), for the next build to take it back."""
+        try:
+            stat = os.stat(dest)
+        except OSError:
+            return
+        start, at = 0, {}  # the file is its pieces one after another
+        for name, (key, piece) in pieces.items():
+            end = start + len(piece.encode("utf-8"))
+            at[name] = [key, start, end]
+            start = end
+        self.pieces[uri] = {"size": stat.st_size, "mtime_ns": stat.st_mtime_ns, "at": at}
+
     def remove_stale(self, outputs: set[str]) -> int:
         """Delete files the last build wrote that this build does not (a removed unit's pages): a build
         that keeps pages does not empty the folder first, and must end as a full build would."""
@@ -79,7 +111,8 @@ class RenderIndex:
 
     def save(self, outputs: set[str]) -> None:
         self.cache.put_note(KIND, str(self.site_dir),
-                            {"format": FORMAT, "pages": self.pages, "outputs": sorted(outputs)})
+                            {"format": FORMAT, "pages": self.pages, "outputs": sorted(outputs),
+                             "pieces": self.pieces})
 
 
 def has_index(records_dir: Path, site_dir: Path) -> bool:

@@ -21,7 +21,7 @@ from markupsafe import Markup
 from .. import model as m
 from ..cautions import CAUTIONS, SHORT
 from ..checks import TASK_ORDER, Finding, urgency
-from ..exports import calendar_ics
+from ..exports import calendar_text
 from ..loader import Loaded
 from ..nodes import NodeReport, node_report
 from .charts import (envelope_svg, forecast_svg, monthly_grid_svg, position_cells, replacement_forecast,
@@ -60,6 +60,9 @@ class Page:
     parts: Callable[[], dict[str, str]] | None = None
     # A hash of everything the page is made of (see page_keys); None: made at every build.
     key: str | None = None
+    # For a file made of pieces, each with its own key (the calendar, a piece a unit): given the last
+    # build's pieces {name: (key, text)}, the file's text and this build's pieces.
+    pieces: Callable[[dict], tuple[str, dict]] | None = None
 
 
 def part_marker(name: str) -> str:
@@ -239,7 +242,7 @@ class SiteBuilder:
         yield Page("about.md", self.about)
         yield Page("keeping-records.md", self.keeping_records)
         yield Page(NEW_UNIT_SHEET, blank_unit_html, static=True)
-        yield Page(CALENDAR, lambda: calendar_ics(self.portfolio, self.findings, self.as_of).decode(), static=True)
+        yield Page(CALENDAR, lambda: self.calendar({})[0], static=True, pieces=self.calendar)
         yield Page(SCHEMA, lambda: json.dumps(record_schema(), indent=2) + "\n", static=True)
         many = len(self.portfolio.properties) > NAV_PROPERTIES
         if many:
@@ -264,6 +267,12 @@ class SiteBuilder:
                     sheets.append((labels_uri(prop, unit), functools.partial(self.labels, prop, unit)))
                 for uri, make in sheets:
                     yield Page(uri, make, static=True, key=keys.unit_page(prop, unit, uri))
+
+    def calendar(self, kept: dict[str, tuple[str, str]]) -> tuple[str, dict[str, tuple[str, str]]]:
+        """The calendar file, each unit's tasks a piece kept from the last build while its key holds."""
+        keys = {unit.uid: key for prop in self.portfolio.properties for unit in prop.units
+                if (key := self.keys.unit_page(prop, unit, CALENDAR)) is not None}
+        return calendar_text(self.portfolio, self.findings, self.as_of, keys, kept)
 
     def inspection_sheets(self, prop: m.Property, unit: m.Unit | None = None) -> str:
         units = prop.units if unit is None else [unit]
