@@ -285,8 +285,26 @@ class ParseCache:
     def put_note(self, kind: str, key: str, value: Any) -> None:
         self._write(self._entry_path(f"{kind}\0{key}"), {"key": f"{kind}\0{key}", "value": value})
 
-    def mark_clean(self, key: str, newest_event: date) -> None:
-        self._write(self.folder / CLEAN_FILE, {"key": key, "newest_event": newest_event.isoformat()})
+    def mark_clean(self, key: str, newest_event: date, files: dict[str, str] | None = None,
+                   property_files: list[str] | None = None) -> None:
+        self._write(self.folder / CLEAN_FILE, {"key": key, "newest_event": newest_event.isoformat(),
+                                               "files": files or {}, "property_files": property_files or []})
+
+    def changed_since_clean(self, files: dict[str, str], property_files: list[str], as_of: date) -> set[str] | None:
+        """The record files that changed or came since the last clean load, when every file holding a
+        property is as it was then (so the devices events are checked against are the same); None when
+        the whole check is needed."""
+        if not self.enabled:
+            return None
+        try:
+            memo = self._read(self.folder / CLEAN_FILE)
+            before, held = memo["files"], memo["property_files"]
+            if date.fromisoformat(memo["newest_event"]) > as_of or held != property_files \
+                    or any(before.get(name) != files.get(name) for name in held):
+                return None
+            return {name for name, digest in files.items() if before.get(name) != digest}
+        except (OSError, ValueError, KeyError, TypeError, AttributeError):
+            return None
 
     def put(self, shown: str, stat: os.stat_result, digest: str, payload: Any) -> None:
         if not self.enabled:

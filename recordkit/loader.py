@@ -109,11 +109,14 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
     newest = 0.0
     digests: list[tuple[str, str]] = []
     record_hashes = Digests() if cache else None
+    inside_of: dict[str, str] = {}  # each file's path as shown in messages -> as named in the cache
+    shown_of: dict[str, str] = {}
     reading = progress.bar(len(paths), "Reading records", "file")
     for path in paths:
         reading.update()
         shown = str(path)
         inside = path.relative_to(root).as_posix()  # the cache's name for the file, however root is written
+        inside_of[shown], shown_of[inside] = inside, shown
         is_policy = path.parent == root and path.name == POLICY_FILE
         try:
             limit = csvlog.MAX_CSV_BYTES if path.suffix == CSV_SUFFIX else MAX_FILE_BYTES
@@ -153,13 +156,20 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
     # The checks across files (an event's device exists, was in service, ...) depend only on the files'
     # content and, for "not after the as-of date", on the newest event: skip them when this exact set of
     # files loaded cleanly before.
+    # When only files without a property changed since a clean load (a `log` appended to one), only their
+    # events need the checks, with every event of a device they retire.
     fileset = parse_cache.fileset_key(digests) if not problems else None
     known_clean = bool(fileset) and parse_cache.loaded_clean(fileset, today)
-    portfolio = builder.finish(today, check_events=not known_clean)
+    property_files = sorted({inside_of[p.source.path] for p in builder.properties if p.source.path in inside_of})
+    changed = parse_cache.changed_since_clean(dict(digests), property_files, today) \
+        if fileset and not known_clean else None
+    portfolio = builder.finish(today, check_events=not known_clean and changed is None)
+    if changed is not None:
+        builder.check_events_of(portfolio, {shown_of[inside] for inside in changed}, today)
     if not known_clean:
         refuse_exports(builder.events, problems)
     if fileset and not known_clean and not problems and portfolio.events:
-        parse_cache.mark_clean(fileset, max(e.date for e in portfolio.events))
+        parse_cache.mark_clean(fileset, max(e.date for e in portfolio.events), dict(digests), property_files)
     if as_of < today and any(event.date > as_of for event in portfolio.events):  # a past view
         portfolio = m.Portfolio(portfolio.properties, tuple(e for e in portfolio.events if e.date <= as_of))
     last = datetime.fromtimestamp(newest, timezone.utc) if newest else None
@@ -458,6 +468,15 @@ class _Builder:
                 self._check_event(event, portfolio, today)
             self.report_orphans()
         return portfolio
+
+    def check_events_of(self, portfolio: m.Portfolio, files: set[str], today: date) -> None:
+        """The checks across files for the events of these files only, and for every event of a device
+        one of them retires (a replacement makes that device's later events wrong wherever they are)."""
+        retired = {e.device for e in portfolio.events if e.path in files and e.action is m.Action.REPLACE}
+        for event in portfolio.events:
+            if event.path in files or event.device in retired:
+                self._check_event(event, portfolio, today)
+        self.report_orphans()
 
     def _check_event(self, event: m.Event, portfolio: m.Portfolio, today: date) -> None:
         messages = event_problems(event, portfolio, today)

@@ -262,17 +262,31 @@ class Portfolio:
         return {d.uid: Located(p, u, d) for p in self.properties for u in p.units for d in u.devices}
 
     @cached_property
-    def history(self) -> dict[str, tuple[Event, ...]]:
-        """Each device's events, oldest first: by date, then time of day; on one day an event with no time
-        comes before the timed ones (so a timed failure is never hidden by an untimed pass of that day),
-        and events alike in both keep file order (the sort is stable)."""
+    def _unsorted(self) -> dict[str, list[Event]]:
         by_device: dict[str, list[Event]] = {}
-        for event in sorted(self.events, key=lambda e: (e.date, e.time or _NO_TIME)):
+        for event in self.events:
             by_device.setdefault(event.device, []).append(event)
-        return {uid: tuple(events) for uid, events in by_device.items()}
+        return by_device
+
+    @cached_property
+    def _sorted(self) -> dict[str, tuple[Event, ...]]:
+        return {}
+
+    @property
+    def history(self) -> dict[str, tuple[Event, ...]]:
+        """Each device's events, oldest first (see `events_for`)."""
+        return {uid: self.events_for(uid) for uid in self._unsorted}
 
     def events_for(self, uid: str) -> tuple[Event, ...]:
-        return self.history.get(uid, ())
+        """A device's events, oldest first: by date, then time of day; on one day an event with no time
+        comes before the timed ones (so a timed failure is never hidden by an untimed pass of that day),
+        and events alike in both keep file order (the sort is stable). Sorted when first asked for: a
+        build that keeps most pages asks for few."""
+        known = self._sorted.get(uid)
+        if known is None:
+            known = self._sorted[uid] = tuple(sorted(self._unsorted.get(uid, ()),
+                                                     key=lambda e: (e.date, e.time or _NO_TIME)))
+        return known
 
     def only(self, property_ids: set[str], added: tuple[Event, ...] = ()) -> "Portfolio":
         """Just these properties, with their events and `added`, and the properties their listening nodes

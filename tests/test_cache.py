@@ -3,6 +3,7 @@ import os
 import shutil
 from datetime import date
 
+import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -117,3 +118,23 @@ def test_a_bad_csv_log_row_names_file_and_row(tmp_path):
     messages = [str(p) for p in load_records(folder, date(2026, 12, 1)).problems]
     assert any("old.csv:2: event: no device 'x/y/z'" in m for m in messages), messages
     assert any("old.csv:3: event: cannot read this row" in m for m in messages), messages
+
+
+@pytest.mark.parametrize("new_file", [
+    # a replacement dated before a test kept in another, unchanged file: that test is now after retirement
+    "events:\n  - {date: 2026-11-01, device: bramble-cottage/home/kitchen-heat, action: replace}\n",
+    # an event of a device that does not exist
+    "events:\n  - {date: 2026-11-01, device: bramble-cottage/home/no-such, action: clean}\n",
+    # an event before its device was installed
+    "events:\n  - {date: 2001-01-01, device: bramble-cottage/home/hall-smoke, action: clean}\n",
+])
+def test_an_event_file_added_after_a_clean_load_is_checked_like_a_cold_load(tmp_path, new_file):
+    # After a clean load, a changed event file has only its own events checked (and every event of a
+    # device it retires): the problems must be those a cold load finds.
+    folder = tmp_path / "records"
+    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".recordkit"))
+    assert not load_records(folder, AS_OF).problems  # clean: the cache remembers it
+    (folder / "log" / "later.yaml").write_text(new_file)
+    warm = load_records(folder, AS_OF)
+    cold = load_records(folder, AS_OF, cache=False)
+    assert warm.problems and warm.problems == cold.problems

@@ -137,7 +137,7 @@ class DeviceView:
 
     @property
     def state(self) -> State | None:
-        return min((f.state for f in self.findings), key=lambda s: s.rank, default=None)
+        return worst_state(self.findings)
 
     @property
     def next(self) -> Finding | None:
@@ -149,6 +149,33 @@ class DeviceView:
     @property
     def replacement(self) -> Finding | None:
         return next((f for f in self.findings if f.task == "replace"), None)
+
+
+def worst_state(findings: list[Finding]) -> State | None:
+    """A device's state: that of its most pressing finding (None: nothing to do)."""
+    return min((f.state for f in findings), key=lambda s: s.rank, default=None)
+
+
+class DeviceViews(dict):
+    """Each device's view by uid, made when first asked for: a build that keeps most pages needs few."""
+
+    def __init__(self, portfolio: m.Portfolio, policy, by_device: dict[str, list[Finding]], as_of: date):
+        super().__init__()
+        self.portfolio, self.policy, self.by_device, self.as_of = portfolio, policy, by_device, as_of
+
+    def __missing__(self, uid: str) -> DeviceView:
+        loc = self.portfolio.devices[uid]
+        node = node_report(self.portfolio, self.policy, loc.device, self.as_of) \
+            if loc.device.kind is m.Kind.LISTENING_NODE else None
+        view = self[uid] = DeviceView(loc, self.by_device.get(uid, []), self.portfolio.events_for(uid),
+                                      self.portfolio.retired_on(uid), node)
+        return view
+
+    def __contains__(self, uid: object) -> bool:
+        return uid in self.portfolio.devices
+
+    def get(self, uid, default=None):
+        return self[uid] if uid in self.portfolio.devices else default
 
 
 class SiteBuilder:
@@ -170,11 +197,7 @@ class SiteBuilder:
         self.label_sheets = len(self.units) <= LABEL_SHEETS_UP_TO
         self.keys = PageKeys(loaded.digests, self.portfolio, loaded.policy, by_device, as_of,
                              (directory_urls, site_url, self.label_sheets, str(Path(loaded.root).resolve())))
-        self.views = {uid: DeviceView(loc, by_device.get(uid, []), self.portfolio.events_for(uid),
-                                      self.portfolio.retired_on(uid),
-                                      node_report(self.portfolio, loaded.policy, loc.device, as_of)
-                                      if loc.device.kind is m.Kind.LISTENING_NODE else None)
-                      for uid, loc in self.portfolio.devices.items()}
+        self.views = DeviceViews(self.portfolio, loaded.policy, by_device, as_of)
         self.env = jinja2.Environment(
             loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=False, finalize=md_text,
             trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined, keep_trailing_newline=True)
@@ -398,8 +421,10 @@ class SiteBuilder:
     def _device_counts(self) -> tuple[dict[m.Kind, Counter], Counter]:
         """Devices in service by kind and state, and by state alone (for the overview and its parts)."""
         by_kind: dict[m.Kind, Counter] = {}
-        for view in self._active(u for p in self.portfolio.properties for u in p.units):
-            by_kind.setdefault(view.device.kind, Counter())[view.state] += 1
+        for uid, located in self.portfolio.devices.items():  # (not through the views: no histories needed)
+            retired = self.portfolio.retired_on(uid)
+            if retired is None or retired > self.as_of:
+                by_kind.setdefault(located.device.kind, Counter())[worst_state(self.by_device.get(uid, []))] += 1
         return by_kind, sum(by_kind.values(), Counter())
 
     def overview(self) -> str:
