@@ -166,7 +166,7 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
     portfolio = builder.finish(today, check_events=not known_clean and changed is None)
     if changed is not None:
         builder.check_events_of(portfolio, {shown_of[inside] for inside in changed}, today)
-    if not known_clean:
+    if not known_clean and any(path.suffix == CSV_SUFFIX for path in paths):  # (exports are CSV files)
         refuse_exports(builder.events, problems)
     if fileset and not known_clean and not problems and portfolio.events:
         parse_cache.mark_clean(fileset, max(e.date for e in portfolio.events), dict(digests), property_files)
