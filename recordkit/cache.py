@@ -290,6 +290,12 @@ class ParseCache:
         self._write(self.folder / CLEAN_FILE, {"key": key, "newest_event": newest_event.isoformat(),
                                                "files": files or {}, "property_files": property_files or []})
 
+    def clean_memo(self) -> dict | None:
+        """What `mark_clean` last wrote, or None."""
+        memo = self._read(self.folder / CLEAN_FILE) if self.enabled else None
+        return memo if isinstance(memo, dict) and {"key", "newest_event", "files", "property_files"} <= set(memo) \
+            else None
+
     def changed_since_clean(self, files: dict[str, str], property_files: list[str], as_of: date) -> set[str] | None:
         """The record files that changed or came since the last clean load, when every file holding a
         property is as it was then (so the devices events are checked against are the same); None when

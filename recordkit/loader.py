@@ -41,6 +41,7 @@ class Loaded:
     files: list[str] = field(default_factory=list)
     last_changed: datetime | None = None  # newest record file's modification time (UTC)
     digests: "Digests | None" = None  # with the cache: short hashes of what each unit's pages are made of
+    partial: bool = False  # only some properties (see quickload): for a command about those alone
 
 
 @dataclass
@@ -110,6 +111,7 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
     digests: list[tuple[str, str]] = []
     record_hashes = Digests() if cache else None
     inside_of: dict[str, str] = {}  # each file's path as shown in messages -> as named in the cache
+    stats: dict[str, Any] = {}
     shown_of: dict[str, str] = {}
     reading = progress.bar(len(paths), "Reading records", "file")
     for path in paths:
@@ -123,6 +125,7 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
             payload, data, stat, digest = parse_cache.get(path, inside, limit)
             newest = max(newest, stat.st_mtime)
             digests.append((inside, digest))
+            stats[inside] = stat
             if payload is not None and not is_policy and builder.add_cached(payload, shown, record_hashes, inside):
                 continue
             if data is None:
@@ -170,6 +173,10 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
         refuse_exports(builder.events, problems)
     if fileset and not known_clean and not problems and portfolio.events:
         parse_cache.mark_clean(fileset, max(e.date for e in portfolio.events), dict(digests), property_files)
+    if fileset and not problems and record_hashes is not None and portfolio.events:
+        from .quickload import save_manifest  # (it imports this module)
+
+        save_manifest(parse_cache, fileset, dict(digests), stats, portfolio, inside_of, record_hashes)
     if as_of < today and any(event.date > as_of for event in portfolio.events):  # a past view
         portfolio = m.Portfolio(portfolio.properties, tuple(e for e in portfolio.events if e.date <= as_of))
     last = datetime.fromtimestamp(newest, timezone.utc) if newest else None

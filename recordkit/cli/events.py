@@ -11,7 +11,7 @@ from ..checks import evaluate
 from ..findings_cache import cached_evaluate
 from ..errors import Source
 from .options import (command, EXIT_ERRORS, as_of_day, as_of_option, date_option, emit, format_option,
-                      load_or_exit, now, out_option, print_json, quiet_option, records_option, today,
+                      load_about, load_or_exit, now, out_option, print_json, quiet_option, records_option, today,
                       utf8_text)
 
 file_option = click.option("--file", "log_file", metavar="PATH",
@@ -24,8 +24,9 @@ def register(main: click.Group) -> None:
         main.add_command(command_)
 
 
-def write_or_exit(records_dir: Path, events, log_file: str | None, again: bool = False) -> None:
-    """Append events (checked already); exit 1 with the reason when nothing (or maybe something) was written."""
+def write_or_exit(records_dir: Path, events, log_file: str | None, again: bool = False) -> dict[Path, int]:
+    """Append events (checked already); exit 1 with the reason when nothing (or maybe something) was written.
+    Returns how many went into which file."""
     from ..intake import IntakeError, write_events
     from ..logbook import LogWriteError, MaybeWritten
 
@@ -45,6 +46,7 @@ def write_or_exit(records_dir: Path, events, log_file: str | None, again: bool =
         click.echo(f"Appended {count} event(s) to {path}")
     if (left := len(events) - sum(written.values())) > 0:
         click.echo(f"{left} event(s) were recorded meanwhile by another command and were left out", err=True)
+    return written
 
 
 def refuse_problems(loaded, events, day: date, again: bool = False) -> None:
@@ -90,6 +92,7 @@ def log_command(words, records_dir: Path, unit_uid, result, when, by, note, agai
     Examples:  recordkit log tansy-house/flat-1/landing-smoke test --result pass --by tenant
                recordkit log --unit tansy-house/flat-1 test --result pass --date '2026-12-01 10:30'"""
     from ..intake import IntakeError, as_model_event, unit_devices
+    from ..quickload import refresh_after_append
     from ..logbook import NewEvent
     from ..model import Action, Result
 
@@ -108,7 +111,7 @@ def log_command(words, records_dir: Path, unit_uid, result, when, by, note, agai
     except ValueError:
         raise click.BadParameter(f"{action_word!r}; choose from {', '.join(a.value for a in Action)}",
                                  param_hint="ACTION") from None
-    loaded = load_or_exit(records_dir, today(), "Not written: fix the records first.")
+    loaded = load_about(records_dir, today(), [unit_uid or words[0]], "Not written: fix the records first.")
     try:
         devices = unit_devices(loaded, unit_uid, day) if unit_uid else [words[0]]
     except IntakeError as exc:
@@ -118,7 +121,8 @@ def log_command(words, records_dir: Path, unit_uid, result, when, by, note, agai
     events = [NewEvent(day, uid, action, Result(result) if result else None, by, note, when=clock)
               for uid in devices]
     refuse_problems(loaded, events, today(), again)
-    write_or_exit(records_dir, events, log_file, again)
+    written = write_or_exit(records_dir, events, log_file, again)
+    refresh_after_append(records_dir, list(written), events)  # the next command need not read everything
     # What is next for each device, from the records as loaded plus what was just written (not a second
     # load), worked out on the devices' own properties only.
     added = tuple(as_model_event(event, Source(log_file or "log", 0)) for event in events)

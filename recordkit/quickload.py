@@ -1,0 +1,157 @@
+"""Loading only the properties a command is about, when the records are exactly as a clean load left
+them: `log` and `status --property` then read a few cache entries, not the whole portfolio.
+
+After every clean load with the cache, the loader saves a manifest beside the parse cache: each record
+file's size, modification time and content hash, which file holds each property, which files hold
+events of its devices, and which other properties its listening nodes hear. `quick_load` lists the
+record files and compares each with the manifest (a file changed too recently for its time to be
+trusted is compared by content, as the parse cache does); on any difference, or when the last load was
+not clean, it returns None and the command loads everything as before. The result is marked `partial`.
+"""
+from __future__ import annotations
+
+import hashlib
+import os
+import time
+from datetime import date, datetime, timezone
+from pathlib import Path
+from typing import Any
+
+from . import model as m
+from .cache import RACY_SECONDS, ParseCache
+from .errors import Problems
+from .loader import Digests, Loaded, _Builder
+from .recordfiles import CSV_SUFFIX, POLICY_FILE, record_files
+from .rules import Policy, apply_policy_file
+from .safeio import UnsafeFile, read_regular
+from .yamltree import MAX_FILE_BYTES, read_yaml
+from . import csvlog
+
+KIND = "manifest"
+FORMAT = 1
+
+
+def save_manifest(cache: ParseCache, fileset: str, digests: dict[str, str], stats: dict[str, Any],
+                  portfolio: m.Portfolio, inside_of: dict[str, str], hashes: Digests) -> None:
+    now = time.time()
+    event_files: dict[str, set[str]] = {}
+    for device, held in hashes.events.items():
+        event_files.setdefault(device.split("/", 1)[0], set()).update(h.rsplit(":", 1)[0] for h in held)
+    cache.put_note(KIND, "records", {
+        "format": FORMAT, "fileset": fileset,
+        "files": {name: [stats[name].st_size, stats[name].st_mtime_ns, digest,
+                         now - stats[name].st_mtime <= RACY_SECONDS] for name, digest in digests.items()},
+        "properties": {p.id: inside_of[p.source.path] for p in portfolio.properties},
+        "event_files": {pid: sorted(files) for pid, files in event_files.items()},
+        "heard": {p.id: sorted(heard) for p in portfolio.properties if (heard := portfolio.heard(p))}})
+
+
+def quick_load(root: Path, property_ids: set[str], as_of: date, today: date | None = None) -> Loaded | None:
+    """Just these properties (and those their nodes hear), with their devices' events; None when the
+    records are not exactly as the last clean load left them, or a property is unknown."""
+    cache = ParseCache(root)
+    try:
+        return _quick(root, cache, property_ids, as_of, max(today or as_of, as_of))
+    except (OSError, UnsafeFile, KeyError, TypeError, ValueError, AttributeError):
+        return None
+
+
+def _quick(root: Path, cache: ParseCache, property_ids: set[str], as_of: date, today: date) -> Loaded | None:
+    manifest = cache.note(KIND, "records")
+    if not isinstance(manifest, dict) or manifest.get("format") != FORMAT \
+            or not cache.loaded_clean(manifest["fileset"], today):
+        return None
+    problems = Problems()
+    paths = record_files(root, problems)
+    files = manifest["files"]
+    named = {path.relative_to(root).as_posix(): path for path in paths}
+    if problems or set(named) != set(files):
+        return None
+    newest = 0.0
+    for name, path in named.items():
+        size, mtime_ns, digest, racy = files[name]
+        stat = os.stat(path)
+        if (stat.st_size, stat.st_mtime_ns) != (size, mtime_ns):
+            return None
+        if racy and hashlib.blake2b(read_regular(path, stat.st_size + 1), digest_size=16).hexdigest() != digest:
+            return None
+        newest = max(newest, stat.st_mtime)
+    wanted = set(property_ids)
+    if not wanted <= set(manifest["properties"]):
+        return None
+    wanted |= {pid for own in property_ids for pid in manifest["heard"].get(own, [])}
+    needed = {manifest["properties"][pid] for pid in wanted}
+    needed |= {name for pid in wanted for name in manifest["event_files"].get(pid, [])}
+    builder, policy = _Builder(problems), Policy()
+    for name, path in named.items():  # in the loader's order, so events keep their order
+        shown = str(path)
+        if path.parent == root and path.name == POLICY_FILE:
+            policy = apply_policy_file(read_yaml(read_regular(path, MAX_FILE_BYTES), shown, problems), shown,
+                                       problems, policy)
+        elif name in needed:
+            limit = csvlog.MAX_CSV_BYTES if path.suffix == CSV_SUFFIX else MAX_FILE_BYTES
+            payload = cache.get(path, name, limit)[0]
+            if payload is None or not builder.add_cached(payload, shown):
+                return None
+    if problems:
+        return None
+    events = tuple(e for e in builder.events if e.device.split("/", 1)[0] in wanted)
+    portfolio = m.Portfolio(tuple(p for p in builder.properties if p.id in wanted), events)
+    if as_of < today and any(e.date > as_of for e in events):  # a past view, as the loader gives it
+        portfolio = m.Portfolio(portfolio.properties, tuple(e for e in events if e.date <= as_of))
+    last = datetime.fromtimestamp(newest, timezone.utc) if newest else None
+    return Loaded(str(root), portfolio, policy, [], [str(p) for p in paths], last, None, partial=True)
+
+
+def refresh_after_append(root: Path, paths: list[Path], appended: list) -> bool:
+    """After `log` appended checked events (`appended`, each with a `record_key`) to these event files,
+    bring the parse cache, the clean-load memo and the manifest up to date by reading those files alone,
+    so the next command need not load everything again. Each file must be its text of the last clean load
+    followed by exactly those events (anything else, such as a hand edit meanwhile, was not checked).
+    False, with nothing changed, when that cannot be done safely: then the next load is a whole one."""
+    cache = ParseCache(root)
+    try:
+        return _refresh(root, cache, paths, sorted(e.record_key for e in appended))
+    except (OSError, UnsafeFile, KeyError, TypeError, ValueError, AttributeError):
+        return False
+
+
+def _refresh(root: Path, cache: ParseCache, paths: list[Path], appended: list) -> bool:
+    manifest, memo = cache.note(KIND, "records"), cache.clean_memo()
+    if not isinstance(manifest, dict) or manifest.get("format") != FORMAT or memo is None \
+            or memo["key"] != manifest["fileset"]:
+        return False
+    files, newest = dict(manifest["files"]), date.fromisoformat(memo["newest_event"])
+    added: list = []
+    for path in paths:
+        name, shown = path.relative_to(root).as_posix(), str(path)
+        if name in memo["property_files"] or path.suffix == CSV_SUFFIX:
+            return False
+        stat = os.stat(path)
+        data = read_regular(path, MAX_FILE_BYTES)
+        problems = Problems()
+        builder = _Builder(problems)
+        tree = read_yaml(data, shown, problems)
+        if tree is None or problems:
+            return False
+        builder.add_file(tree, shown)
+        if problems or builder.properties:  # (an event file only)
+            return False
+        old_size, old_digest = (files[name][0], files[name][2]) if name in files else (0, None)
+        if old_digest is not None and hashlib.blake2b(data[:old_size], digest_size=16).hexdigest() != old_digest:
+            return False
+        first_new_line = data[:old_size].count(b"\n") + 1
+        added += [e.record_key for e in builder.events if e.line >= first_new_line]
+        digest = hashlib.blake2b(data, digest_size=16).hexdigest()
+        cache.put(name, stat, digest, builder.cache_payload(0, 0))
+        files[name] = [stat.st_size, stat.st_mtime_ns, digest, True]
+        newest = max([newest, *(e.date for e in builder.events)])
+        for pid in {e.device.split("/", 1)[0] for e in builder.events}:
+            manifest["event_files"][pid] = sorted({*manifest["event_files"].get(pid, []), name})
+    if sorted(added) != appended:
+        return False  # (the cache entries written above are checked by content on their next use)
+    digests = {name: entry[2] for name, entry in files.items()}
+    fileset = cache.fileset_key(list(digests.items()))
+    cache.mark_clean(fileset, newest, digests, memo["property_files"])
+    cache.put_note(KIND, "records", {**manifest, "fileset": fileset, "files": files})
+    return True
