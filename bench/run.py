@@ -108,7 +108,9 @@ def run(units: int, work: Path) -> dict:
     r["warm"], peak = recordkit("build", "-r", str(records), *when, "-o", str(work / "site"))
     r["same"], _ = recordkit("build", "-r", str(records), *when, "-o", str(work / "site"))
     loaded = load_records(records, AS_OF)
-    device = sorted(loaded.portfolio.devices)[len(loaded.portfolio.devices) // 2]
+    in_service = sorted(uid for uid, loc in loaded.portfolio.devices.items()
+                        if loaded.portfolio.retired_on(uid) is None and loc.device.kind.value != "listening_node")
+    device = in_service[len(in_service) // 2]
     prop = device.split("/")[0]
     r["log"], _ = recordkit("log", device, "test", "--result", "pass", "-r", str(records), "--date",
                             "2026-11-30", "--again", "--by", "bench")

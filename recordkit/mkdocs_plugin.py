@@ -13,7 +13,7 @@ import os
 import time
 from datetime import date
 from pathlib import Path
-from typing import Iterator
+from typing import Callable, Iterator
 
 from mkdocs.config import base, config_options
 from mkdocs.config.defaults import MkDocsConfig
@@ -126,6 +126,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         self.indexed = 0
         self.nav_names: list = []
         self.started = 0.0
+        self.summary = ""  # what the last build made and kept
         self.bar: progress.Bar = progress.bar(0, "", "")
 
     def on_config(self, config: MkDocsConfig) -> MkDocsConfig:
@@ -291,8 +292,8 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             outputs = {f.dest_uri for f in files}
             index.remove_stale(outputs)
             index.save(outputs)
-            log.info("recordkit: built in %.1f s: %d page(s) made, %d kept as they were",
-                     time.perf_counter() - self.started, index.made, index.kept)
+            self.summary = f"{index.made} page(s) made, {index.kept} kept as they were"
+            log.info("recordkit: built in %.1f s: %s", time.perf_counter() - self.started, self.summary)
         self.bar.close()
         self.pages = {}  # let the records go: `mkdocs serve` loads them afresh on the next build
         self.made_files = []
@@ -399,9 +400,10 @@ def site_settings(records: Path, config_file: Path | None, empty_pages: Path) ->
 
 
 def build_site(records: Path, as_of: date | None, out: Path | None, config_file: Path | None = None,
-               force: bool = False) -> Path:
+               force: bool = False, report: Callable[[str], None] | None = None) -> Path:
     """Build the site as `mkdocs build` would, with the built-in configuration unless the user has a
-    mkdocs.yml; returns the output folder. Refuses an unsafe output folder before anything is removed."""
+    mkdocs.yml; returns the output folder. Refuses an unsafe output folder before anything is removed.
+    `report` is told how many pages were made and how many kept from the last build."""
     import tempfile
 
     from mkdocs.commands.build import build
@@ -431,6 +433,9 @@ def build_site(records: Path, as_of: date | None, out: Path | None, config_file:
         except MkDocsException as exc:
             raise SiteBuildError(str(exc)) from None
     mark_built(Path(config.site_dir))
+    summary = getattr(config.plugins.get("recordkit"), "summary", "")
+    if report and summary:
+        report(summary)
     return Path(config.site_dir)
 
 

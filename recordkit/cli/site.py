@@ -50,11 +50,12 @@ def build(records_dir: Path, as_of, out: Path | None, config_file: Path | None, 
     exit_unless_folder(records_dir)  # the plugin loads the records (once) and reports their problems
     click.echo(f"Building the site from {records_dir} ...", err=True)
     try:
-        site_dir = build_site(records_dir, as_of_day(as_of), out, config_file, force)
+        made: list[str] = []
+        site_dir = build_site(records_dir, as_of_day(as_of), out, config_file, force, report=made.append)
     except SiteBuildError as exc:
         click.echo(f"Not built: {exc}", err=True)
         sys.exit(EXIT_ERRORS)
-    click.echo(f"Site written to {site_dir}/ (open index.html).")
+    click.echo(f"Site written to {site_dir}/ (open index.html)" + (f": {made[0]}." if made else "."))
 
 
 @command()
