@@ -17,6 +17,7 @@ from datetime import date, datetime, timezone
 from pathlib import Path
 from typing import Any
 
+from . import csvlog
 from . import model as m
 from .cache import RACY_SECONDS, ParseCache
 from .errors import Problems
@@ -25,7 +26,6 @@ from .recordfiles import CSV_SUFFIX, POLICY_FILE, record_files
 from .rules import Policy, apply_policy_file
 from .safeio import UnsafeFile, read_regular
 from .yamltree import MAX_FILE_BYTES, read_yaml
-from . import csvlog
 
 KIND = "manifest"
 FORMAT = 1
