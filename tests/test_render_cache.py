@@ -147,3 +147,18 @@ def test_the_same_records_named_two_ways_share_one_cache(tmp_path, monkeypatch):
     again = load_records(Path("..") / "data" / "records", AS_OF)  # a relative name for the same folder
     assert not again.problems
     assert parsed == []  # every file came from the cache
+
+
+def test_a_removed_unit_leaves_no_page_behind(tmp_path):
+    records, site = tmp_path / "records", tmp_path / "site"
+    shutil.copytree(REPO / "records", records, ignore=shutil.ignore_patterns(".recordkit"))
+    build_site(records, AS_OF, site)
+    path = records / "tansy-house.yaml"
+    before = path.read_text()
+    cli(records, "add", "unit", "--property", "tansy-house", "--id", "flat-9", "--name", "Flat 9")
+    build_site(records, AS_OF, site)
+    assert (site / "properties" / "tansy-house" / "flat-9.html").is_file()
+    path.write_text(before)  # the unit taken out again by hand
+    build_site(records, AS_OF, site)
+    assert not list(site.rglob("*flat-9*"))  # its page and sheets are gone, as in a full build
+    assert_same_tree(site, build_site(records, AS_OF, tmp_path / "full"))
