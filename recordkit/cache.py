@@ -37,7 +37,7 @@ from .safeio import read_regular
 
 EVIDENCE_PATTERN = re.compile(r"^sha256:[0-9a-f]{64}$")
 CACHE_DIR = ".recordkit/cache"  # inside the tool's own hidden folder (see logbook.WORK_DIR)
-FORMAT = 9  # 9: entries by path inside the records folder, with digests of each unit and device history
+FORMAT = 10  # 10: entries by path inside the records folder, with digests of each unit and device history
 CLEAN_FILE = "clean.json"
 RACY_SECONDS = 2.0
 MAX_ENTRY_BYTES = 512 * 1024 * 1024  # an entry is smaller than the record file it stands for
@@ -108,6 +108,12 @@ def record_digests(prop: m.Property | None, events: list[m.Event]) -> dict:
             [e.date.isoformat(), e.time.isoformat() if e.time else None, e.action.value,
              e.result.value if e.result else None, e.by, e.note, e.evidence, e.line])
     digests: dict[str, Any] = {"events": {device: _digest(rows) for device, rows in by_device.items()}}
+    evidence: dict[str, set[str]] = {}
+    for e in events:
+        if e.evidence:
+            evidence.setdefault(e.device, set()).add(e.evidence)
+    if evidence:  # a page shows what each kept recording holds: its file is one of the page's inputs
+        digests["evidence"] = {device: sorted(refs) for device, refs in evidence.items()}
     if prop is not None:
         digests["property"] = _digest([prop.id, prop.name, prop.address, prop.source.line])
         digests["units"] = {unit.uid: _digest(_UNIT_ENCODE(unit)) for unit in prop.units}

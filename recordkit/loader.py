@@ -16,7 +16,8 @@ from typing import Any
 
 from . import csvlog, progress
 from . import model as m
-from .cache import ParseCache, decode_events, decode_property, encode_events, encode_property, record_digests
+from .cache import (EVIDENCE_PATTERN, ParseCache, decode_events, decode_property, encode_events, encode_property,
+                    record_digests)
 from .errors import Problem, Problems, Source
 from .fields import MAX_LIFE_YEARS, Fields
 from .rules import Policy, apply_policy_file
@@ -52,10 +53,15 @@ class Digests:
     properties: dict[str, str] = field(default_factory=dict)
     units: dict[str, str] = field(default_factory=dict)
     events: dict[str, list[str]] = field(default_factory=dict)
+    evidence: dict[str, list[str]] = field(default_factory=dict)  # device -> its events' recordings
 
     def add(self, digests: dict, file: str) -> None:
         if not all(isinstance(d, str) for part in ("units", "events") for d in digests.get(part, {}).values()):
             raise TypeError("a digest that is not text")
+        for device, refs in digests.get("evidence", {}).items():
+            if not all(isinstance(r, str) and EVIDENCE_PATTERN.match(r) for r in refs):
+                raise TypeError("not a recording's reference")
+            self.evidence.setdefault(device, []).extend(refs)
         if "property" in digests:
             self.properties[str(digests.get("id"))] = digests["property"]
         self.units.update(digests.get("units", {}))

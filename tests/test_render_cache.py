@@ -83,7 +83,11 @@ def edit_page(records: Path, n: int) -> None:
     path.write_text(path.read_text() + f"\nA line added by edit {n}.\n")
 
 
-EDITS = [log_test, add_device, replace_device, edit_record, edit_policy, edit_page]
+def add_unit(records: Path, n: int) -> None:
+    cli(records, "add", "unit", "--property", "bramble-cottage", "--id", f"annexe-{n}", "--name", f"Annexe {n}")
+
+
+EDITS = [log_test, add_device, replace_device, edit_record, edit_policy, edit_page, add_unit]
 
 
 # Each example builds the site several times: a few examples, and no shrinking (the failing edits print).
@@ -158,7 +162,31 @@ def test_a_removed_unit_leaves_no_page_behind(tmp_path):
     cli(records, "add", "unit", "--property", "tansy-house", "--id", "flat-9", "--name", "Flat 9")
     build_site(records, AS_OF, site)
     assert (site / "properties" / "tansy-house" / "flat-9.html").is_file()
+    assert_same_tree(site, build_site(records, AS_OF, tmp_path / "full-with"))
     path.write_text(before)  # the unit taken out again by hand
     build_site(records, AS_OF, site)
     assert not list(site.rglob("*flat-9*"))  # its page and sheets are gone, as in a full build
+    assert_same_tree(site, build_site(records, AS_OF, tmp_path / "full"))
+
+
+def test_a_kept_recording_removed_or_changed_makes_its_page_again(tmp_path):
+    import numpy as np
+
+    from recordkit.evidence import evidence_path, keep
+
+    from .test_audio import TEMPORAL_3, signal, write_wav
+
+    records, site = tmp_path / "records", tmp_path / "site"
+    shutil.copytree(REPO / "records", records, ignore=shutil.ignore_patterns(".recordkit"))
+    samples = (signal(TEMPORAL_3, 3200.0, 5) * 32767).astype(np.int16).tobytes()
+    reference = keep(records, write_wav(tmp_path / "test.wav", samples))
+    with open(records / "log" / "2026.yaml", "a") as log:
+        log.write(f"  - {{date: 2026-11-29, device: tansy-house/flat-1/landing-smoke, action: test, result: pass, "
+                  f"evidence: '{reference}'}}\n")
+    build_site(records, AS_OF, site)
+    page = site / "properties" / "tansy-house" / "flat-1.html"
+    assert "Recorded evidence" in page.read_text() and "not readable" not in page.read_text()
+    evidence_path(records, reference).unlink()  # the recording is lost; the records still name it
+    build_site(records, AS_OF, site)
+    assert "not readable" in page.read_text()
     assert_same_tree(site, build_site(records, AS_OF, tmp_path / "full"))

@@ -1,12 +1,12 @@
 """What each generated page is made of, as one short hash: its render key.
 
-A unit's pages depend on its property's own fields, the unit's record, each device's history, the
-findings about them (which carry what the rules and other units make of them), the policy, the as-of
-date, the site's address and URL style, and recordkit's templates. The parse cache keeps a hash of each
+A unit's pages depend on its property's own fields, the unit's record, each device's history and kept
+recordings, the findings about them (which carry what the rules and other units make of them), the
+policy, the as-of date, the site's address and URL style, and recordkit's templates. The parse cache keeps a hash of each
 record and history (`loader.Digests`), so a key costs a few lookups, not a pass over the events. Two
 builds that give a page the same key make the same page; the plugin then keeps the page it wrote before
-(see `render_cache`). Pages about the whole portfolio (the overview, the calendar) have no key and are
-always made.
+(see `render_cache`). Pages about the whole portfolio (the overview, the rules) have no key and are
+always made; the calendar is made of one piece a unit, keyed like the unit's pages.
 """
 from __future__ import annotations
 
@@ -14,13 +14,16 @@ import dataclasses
 import functools
 import hashlib
 import json
+import os
 from datetime import date
 from enum import Enum
+from pathlib import Path
 from typing import Any
 
 from .. import __version__
 from .. import model as m
 from ..checks import Finding
+from ..evidence import evidence_path
 from ..loader import Digests
 from ..rules import Policy
 from .labels import TEMPLATES
@@ -65,15 +68,25 @@ class PageKeys:
     loaded without the cache (no hashes to build keys from)."""
 
     def __init__(self, digests: Digests | None, portfolio: m.Portfolio, policy: Policy,
-                 by_device: dict[str, list[Finding]], as_of: date, settings: tuple):
+                 by_device: dict[str, list[Finding]], as_of: date, settings: tuple, root: Path):
         self.digests = digests
+        self.root = root
         self.portfolio = portfolio
         self.by_device = by_device
         self._units: dict[str, str] = {}
         self.site = digest([templates_digest(), policy_digest(policy), as_of, *settings]) if digests else ""
 
     def _device_inputs(self, device: m.Device) -> list:
-        return [self.digests.events.get(device.uid, []), [_finding_text(f) for f in self.by_device.get(device.uid, [])]]
+        return [self.digests.events.get(device.uid, []), [_finding_text(f) for f in self.by_device.get(device.uid, [])],
+                [self._recording(ref) for ref in self.digests.evidence.get(device.uid, [])]]
+
+    def _recording(self, reference: str) -> list:
+        """A kept recording as its page shows it: there or not, and which file (size and time)."""
+        try:
+            info = os.stat(evidence_path(self.root, reference))
+            return [reference, info.st_size, info.st_mtime_ns]
+        except OSError:
+            return [reference, None]
 
     def unit_inputs(self, prop: m.Property, unit: m.Unit) -> str:
         known = self._units.get(unit.uid)  # by uid: hashing the records themselves is slow

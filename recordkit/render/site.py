@@ -196,7 +196,8 @@ class SiteBuilder:
         self.units = {u.uid: (p, u) for p in self.portfolio.properties for u in p.units}
         self.label_sheets = len(self.units) <= LABEL_SHEETS_UP_TO
         self.keys = PageKeys(loaded.digests, self.portfolio, loaded.policy, by_device, as_of,
-                             (directory_urls, site_url, self.label_sheets, str(Path(loaded.root).resolve())))
+                             (directory_urls, site_url, self.label_sheets, str(Path(loaded.root).resolve())),
+                             Path(loaded.root))
         self.views = DeviceViews(self.portfolio, loaded.policy, by_device, as_of)
         self.env = jinja2.Environment(
             loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=False, finalize=md_text,
