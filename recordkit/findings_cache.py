@@ -14,13 +14,12 @@ from datetime import date
 from pathlib import Path
 from typing import Any
 
-from . import __version__
 from . import model as m
 from .cache import ParseCache
 from .checks import Finding, evaluate
 from .errors import Source
 from .loader import Digests, Loaded
-from .render.page_keys import digest, policy_digest
+from .render.page_keys import digest, policy_digest, templates_digest
 from .rules import Policy
 from .schedule import State
 
@@ -69,7 +68,7 @@ def cached_evaluate(loaded: Loaded, policy: Policy, as_of: date) -> list[Finding
     if digests is None:
         return evaluate(portfolio, policy, as_of)
     cache = ParseCache(Path(loaded.root))
-    base = digest([__version__, FORMAT, policy_digest(policy), as_of, loaded.root])
+    base = digest([templates_digest(), FORMAT, policy_digest(policy), as_of, loaded.root])  # (recordkit's code too)
     kept: dict[str, list[Finding]] = {}
     keys: dict[str, str] = {}
     for prop in portfolio.properties:

@@ -48,10 +48,13 @@ def _plain(value: Any) -> Any:
 
 @functools.cache
 def templates_digest() -> str:
-    """recordkit's own templates, styles and scripts, by content (a changed template changes every key)."""
+    """recordkit itself by content: its templates, styles and scripts, and its code (a changed template or
+    a changed way of making a page changes every key, with or without a new version number)."""
     hasher = hashlib.blake2b(__version__.encode(), digest_size=16)
-    for path in sorted(p for p in TEMPLATES.rglob("*") if p.is_file() and "__pycache__" not in p.parts):
-        hasher.update(path.relative_to(TEMPLATES).as_posix().encode() + b"\0" + path.read_bytes() + b"\0")
+    package = Path(__file__).resolve().parent.parent
+    for folder, pattern in ((TEMPLATES, "*"), (package, "*.py")):
+        for path in sorted(p for p in folder.rglob(pattern) if p.is_file() and "__pycache__" not in p.parts):
+            hasher.update(path.relative_to(folder).as_posix().encode() + b"\0" + path.read_bytes() + b"\0")
     return hasher.hexdigest()
 
 
