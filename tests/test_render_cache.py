@@ -190,3 +190,14 @@ def test_a_kept_recording_removed_or_changed_makes_its_page_again(tmp_path):
     build_site(records, AS_OF, site)
     assert "not readable" in page.read_text()
     assert_same_tree(site, build_site(records, AS_OF, tmp_path / "full"))
+
+
+def test_an_output_file_edited_or_deleted_by_hand_is_made_again(tmp_path):
+    records, site = tmp_path / "records", tmp_path / "site"
+    shutil.copytree(REPO / "records", records, ignore=shutil.ignore_patterns(".recordkit"))
+    build_site(records, AS_OF, site)
+    page, sheet = site / "properties" / "tansy-house" / "flat-1.html", site / "checklists" / "tansy-house" / "flat-1.html"
+    page.write_text(page.read_text().replace("Flat 1", "Flat one"))
+    sheet.unlink()
+    build_site(records, AS_OF, site)
+    assert_same_tree(site, build_site(records, AS_OF, tmp_path / "full"))
