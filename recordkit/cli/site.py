@@ -64,7 +64,10 @@ def build(records_dir: Path, as_of, out: Path | None, config_file: Path | None, 
 @config_option
 @click.option("--address", default="127.0.0.1:8000", show_default=True, help="Where to serve the site.")
 def serve(records_dir: Path, as_of, config_file: Path | None, address: str) -> None:
-    """Serve the site locally and rebuild it whenever a record file changes."""
+    """Serve the site locally and rebuild it whenever a record file changes.
+
+    One saved edit is one rebuild, which makes again only the pages that edit
+    changes; each rebuild's time and what it made and kept are printed."""
     from ..mkdocs_plugin import SiteBuildError, serve_site
 
     exit_unless_folder(records_dir)
