@@ -32,6 +32,7 @@ from . import __version__
 from . import model as m
 from .errors import Source
 from .fields import FIRST_YEAR, ID_PATTERN, LAST_YEAR, RESERVED_IDS
+from .hashes import digest
 from .logbook import ensure_work_dir
 from .safeio import read_regular
 
@@ -95,28 +96,23 @@ _PROPERTY_ENCODE, _PROPERTY_DECODE = _codec(m.Property)
 _UNIT_ENCODE = _codec(m.Unit)[0]
 
 
-def _digest(data: Any) -> str:
-    return hashlib.blake2b(json.dumps(data, separators=(",", ":")).encode(), digest_size=12).hexdigest()
-
-
 def record_digests(prop: m.Property | None, events: list[m.Event]) -> dict:
     """What one file says about each unit and each device's history, as short hashes: a page made from
     them is made again only when one of its hashes changes (see render_cache)."""
     by_device: dict[str, list] = {}
+    evidence: dict[str, set[str]] = {}
     for e in events:
         by_device.setdefault(e.device, []).append(
             [e.date.isoformat(), e.time.isoformat() if e.time else None, e.action.value,
              e.result.value if e.result else None, e.by, e.note, e.evidence, e.line])
-    digests: dict[str, Any] = {"events": {device: _digest(rows) for device, rows in by_device.items()}}
-    evidence: dict[str, set[str]] = {}
-    for e in events:
         if e.evidence:
             evidence.setdefault(e.device, set()).add(e.evidence)
+    digests: dict[str, Any] = {"events": {device: digest(rows, 12) for device, rows in by_device.items()}}
     if evidence:  # a page shows what each kept recording holds: its file is one of the page's inputs
         digests["evidence"] = {device: sorted(refs) for device, refs in evidence.items()}
     if prop is not None:
-        digests["property"] = _digest([prop.id, prop.name, prop.address, prop.source.line])
-        digests["units"] = {unit.uid: _digest(_UNIT_ENCODE(unit)) for unit in prop.units}
+        digests["property"] = digest([prop.id, prop.name, prop.address, prop.source.line], 12)
+        digests["units"] = {unit.uid: digest(_UNIT_ENCODE(unit), 12) for unit in prop.units}
     return digests
 
 
@@ -306,10 +302,10 @@ class ParseCache:
         """The record files that changed or came since the last clean load, when every file holding a
         property is as it was then (so the devices events are checked against are the same); None when
         the whole check is needed."""
-        if not self.enabled:
+        memo = self.clean_memo()
+        if memo is None:
             return None
         try:
-            memo = self._read(self.folder / CLEAN_FILE)
             before, held = memo["files"], memo["property_files"]
             if date.fromisoformat(memo["newest_event"]) > as_of or held != property_files \
                     or any(before.get(name) != files.get(name) for name in held):

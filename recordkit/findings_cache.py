@@ -2,7 +2,7 @@
 records changed.
 
 A property's findings depend only on its own records and events and on the properties its listening
-nodes hear (`Portfolio.only`), the policy, the as-of date and recordkit's version. Those, as the parse
+nodes hear (`Portfolio.only`), the policy, the as-of date and recordkit's code. Those, as the parse
 cache's hashes (`loader.Digests`), make the property's key; its findings are kept beside the parse cache
 (`.recordkit/cache/`, checksummed like every entry) with that key. A property whose key is unchanged
 takes its findings from there; the others are evaluated, on their own when few changed, with the whole
@@ -19,7 +19,7 @@ from .cache import ParseCache
 from .checks import Finding, evaluate
 from .errors import Source
 from .loader import Digests, Loaded
-from .render.page_keys import digest, policy_digest, templates_digest
+from .hashes import code_digest, digest, policy_digest
 from .rules import Policy
 from .schedule import State
 
@@ -74,7 +74,7 @@ def cached_evaluate(loaded: Loaded, policy: Policy, as_of: date) -> list[Finding
     if digests is None:
         return evaluate(portfolio, policy, as_of)
     cache = ParseCache(Path(loaded.root))
-    base = digest([templates_digest(), FORMAT, policy_digest(policy), as_of, loaded.root])  # (recordkit's code too)
+    base = digest([code_digest(), FORMAT, policy_digest(policy), as_of, loaded.root])
     kept: dict[str, list[Finding]] = {}
     keys: dict[str, str] = {}
     for prop in portfolio.properties:

@@ -29,7 +29,7 @@ from .serving import ServeLog, watch_records
 from .recordfiles import SITE_CONFIGS
 from .render.labels import ASSETS, DEFAULT_SITE_CONFIG
 from .render.site import Page, part_marker, site_pages
-from .render.page_keys import digest
+from .hashes import digest
 from .render_cache import RenderIndex
 from .rules import Interval, Rule
 

@@ -15,7 +15,7 @@ from pathlib import Path
 from typing import Any
 
 from .cache import ParseCache
-from .render.page_keys import digest
+from .hashes import digest
 
 KIND = "render-index"
 FORMAT = 1

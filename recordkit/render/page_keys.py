@@ -2,64 +2,25 @@
 
 A unit's pages depend on its property's own fields, the unit's record, each device's history and kept
 recordings, the findings about them (which carry what the rules and other units make of them), the
-policy, the as-of date, the site's address and URL style, and recordkit's templates. The parse cache keeps a hash of each
-record and history (`loader.Digests`), so a key costs a few lookups, not a pass over the events. Two
+policy, the as-of date, the site's address and URL style, and recordkit's templates and code. The
+parse cache keeps a hash of each record and history (`loader.Digests`), so a key costs a few lookups, not a pass over the events. Two
 builds that give a page the same key make the same page; the plugin then keeps the page it wrote before
 (see `render_cache`). Pages about the whole portfolio (the overview, the rules) have no key and are
 always made; the calendar is made of one piece a unit, keyed like the unit's pages.
 """
 from __future__ import annotations
 
-import dataclasses
-import functools
-import hashlib
-import json
 import os
 from datetime import date
-from enum import Enum
 from pathlib import Path
 from typing import Any
 
-from .. import __version__
 from .. import model as m
 from ..checks import Finding
 from ..evidence import evidence_path
+from ..hashes import code_digest, digest, policy_digest
 from ..loader import Digests
 from ..rules import Policy
-from .labels import TEMPLATES
-
-
-def digest(parts: Any) -> str:
-    return hashlib.blake2b(json.dumps(parts, default=_plain, separators=(",", ":")).encode(),
-                           digest_size=16).hexdigest()
-
-
-def _plain(value: Any) -> Any:
-    """A value as JSON data that is the same in every process (a set's order is not: string hashes are
-    salted per process, so sets are sorted)."""
-    if isinstance(value, Enum):
-        return value.value
-    if isinstance(value, (set, frozenset)):
-        return sorted((_plain(v) if not isinstance(v, str) else v for v in value), key=str)
-    if dataclasses.is_dataclass(value):
-        return [type(value).__name__, *(getattr(value, f.name) for f in dataclasses.fields(value))]
-    return str(value)
-
-
-@functools.cache
-def templates_digest() -> str:
-    """recordkit itself by content: its templates, styles and scripts, and its code (a changed template or
-    a changed way of making a page changes every key, with or without a new version number)."""
-    hasher = hashlib.blake2b(__version__.encode(), digest_size=16)
-    package = Path(__file__).resolve().parent.parent
-    for folder, pattern in ((TEMPLATES, "*"), (package, "*.py")):
-        for path in sorted(p for p in folder.rglob(pattern) if p.is_file() and "__pycache__" not in p.parts):
-            hasher.update(path.relative_to(folder).as_posix().encode() + b"\0" + path.read_bytes() + b"\0")
-    return hasher.hexdigest()
-
-
-def policy_digest(policy: Policy) -> str:
-    return digest([list(policy), policy.rule_set, policy.costs, policy.currency])
 
 
 def _finding_text(f: Finding) -> str:
@@ -77,7 +38,7 @@ class PageKeys:
         self.portfolio = portfolio
         self.by_device = by_device
         self._units: dict[str, str] = {}
-        self.site = digest([templates_digest(), policy_digest(policy), as_of, *settings]) if digests else ""
+        self.site = digest([code_digest(), policy_digest(policy), as_of, *settings]) if digests else ""
 
     def _device_inputs(self, device: m.Device) -> list:
         return [self.digests.events.get(device.uid, []), [_finding_text(f) for f in self.by_device.get(device.uid, [])],
