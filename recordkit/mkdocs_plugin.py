@@ -30,7 +30,7 @@ from .recordfiles import SITE_CONFIGS
 from .render.labels import ASSETS, DEFAULT_SITE_CONFIG
 from .render.site import Page, part_marker, site_pages
 from .hashes import digest
-from .render_cache import RenderIndex
+from .render_cache import RenderIndex, read_index
 from .rules import Interval, Rule
 
 log = logging.getLogger("mkdocs.plugins.recordkit")
@@ -127,6 +127,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         self.nav_names: list = []
         self.started = 0.0
         self.summary = ""  # what the last build made and kept
+        self.last_index: dict[str, dict | None] = {}  # site folder -> its index, when already read
         self.bar: progress.Bar = progress.bar(0, "", "")
 
     def on_config(self, config: MkDocsConfig) -> MkDocsConfig:
@@ -193,8 +194,14 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
 
     def on_files(self, files: Files, /, *, config: MkDocsConfig) -> Files:
         own = [f for f in files if f.generated_by is None]  # the hand-written pages, before ours join
-        self.index = RenderIndex(self.records_dir, Path(config.site_dir), self._frame(config, own)) \
-            if self.records_dir else None
+        if self.records_dir:
+            site_dir = Path(config.site_dir)
+            folder = str(site_dir.resolve())
+            # `build_site` read the last index already to decide whether to keep pages: not read twice
+            old = self.last_index.pop(folder) if folder in self.last_index else read_index(self.records_dir, site_dir)
+            self.index = RenderIndex(self.records_dir, site_dir, self._frame(config, own), old)
+        else:
+            self.index = None
         self.made_files = []
         self.search_entries = {}
         self.indexed = 0
@@ -379,7 +386,6 @@ def build_site(records: Path, as_of: date | None, out: Path | None, config_file:
     from mkdocs.config import load_config
 
     from .outdir import OutputRefused, check_output, default_output, looks_built, mark_built
-    from .render_cache import has_index
 
     config_file = config_file or find_site_config(records)
     with _pass_arguments(records, as_of), tempfile.TemporaryDirectory(prefix="recordkit-pages-") as empty_pages:
@@ -396,7 +402,11 @@ def build_site(records: Path, as_of: date | None, out: Path | None, config_file:
         try:
             config = load_config(str(DEFAULT_SITE_CONFIG), config_file_path=str(anchor), **settings)
             # keep unchanged pages of the last build into this folder (see render_cache)
-            build(config, dirty=looks_built(Path(out)) and has_index(records, Path(out)))
+            last = read_index(records, Path(out)) if looks_built(Path(out)) else None
+            plugin = config.plugins.get("recordkit")
+            if isinstance(plugin, RecordkitPlugin):
+                plugin.last_index[str(Path(out).resolve())] = last
+            build(config, dirty=last is not None)
         except Abort:  # MkDocs has printed why (the records' problems, or the configuration's)
             raise SiteBuildError("stopped; see the messages above") from None
         except MkDocsException as exc:

@@ -21,16 +21,22 @@ KIND = "render-index"
 FORMAT = 1
 
 
+def read_index(records_dir: Path, site_dir: Path) -> dict | None:
+    """The index the last build into this folder left, or None (then a build there keeps nothing)."""
+    note = ParseCache(records_dir).note(KIND, str(Path(site_dir).resolve()))
+    return note if isinstance(note, dict) and note.get("format") == FORMAT else None
+
+
 class RenderIndex:
-    def __init__(self, records_dir: Path, site_dir: Path, frame: str):
+    def __init__(self, records_dir: Path, site_dir: Path, frame: str, old: dict | None):
+        """`old`: what `read_index` gave for this folder."""
         self.cache = ParseCache(records_dir)
         self.site_dir = Path(site_dir).resolve()
         self.frame = frame
-        old = self.cache.note(KIND, str(self.site_dir))
-        valid = isinstance(old, dict) and old.get("format") == FORMAT
-        self.old: dict[str, Any] = old["pages"] if valid and isinstance(old.get("pages"), dict) else {}
-        self.old_outputs: list[str] = old["outputs"] if valid and isinstance(old.get("outputs"), list) else []
-        self.old_pieces: dict[str, Any] = old.get("pieces", {}) if valid and isinstance(old.get("pieces"), dict) else {}
+        old = old or {}
+        self.old: dict[str, Any] = old["pages"] if isinstance(old.get("pages"), dict) else {}
+        self.old_outputs: list[str] = old["outputs"] if isinstance(old.get("outputs"), list) else []
+        self.old_pieces: dict[str, Any] = old["pieces"] if isinstance(old.get("pieces"), dict) else {}
         self.pages: dict[str, dict] = {}
         self.pieces: dict[str, dict] = {}
         self.kept = self.made = 0
@@ -113,9 +119,3 @@ class RenderIndex:
         self.cache.put_note(KIND, str(self.site_dir),
                             {"format": FORMAT, "pages": self.pages, "outputs": sorted(outputs),
                              "pieces": self.pieces})
-
-
-def has_index(records_dir: Path, site_dir: Path) -> bool:
-    """A previous build into this folder left an index: the next build may keep its pages."""
-    note = ParseCache(records_dir).note(KIND, str(Path(site_dir).resolve()))
-    return isinstance(note, dict) and note.get("format") == FORMAT
