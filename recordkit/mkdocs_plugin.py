@@ -256,9 +256,6 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                 made.page.title = made.kept["title"]
         return env
 
-    def on_nav(self, nav, /, *, config: MkDocsConfig, files: Files):
-        return self.on_env(nav, config=config, files=files)
-
     @event_priority(-100)  # after the search plugin has indexed the page
     def on_page_context(self, context, /, *, page, config: MkDocsConfig, nav):
         search = _search_index(config)
