@@ -141,20 +141,25 @@ def load_or_exit(records_dir: Path, as_of: date, refusal: str = "", need_records
     return loaded
 
 
-def load_about(records_dir: Path, as_of: date, uids: list[str], refusal: str = "") -> Loaded:
-    """The records a command about these devices, units or properties needs: only their properties when
-    the records are as the last clean load left them (see quickload) and name them all; else all of them,
-    or exit 1 as `load_or_exit` does."""
+def quick_about(records_dir: Path, as_of: date, uids: list[str]) -> Loaded | None:
+    """Only the properties of these devices, units or properties, when the records are as the last clean
+    load left them (see quickload) and those name them all; else None (load everything: that load says
+    what is wrong, with suggestions)."""
     from ..quickload import quick_load
 
     quick = quick_load(records_dir, {uid.split("/", 1)[0] for uid in uids}, as_of, today())
-    if quick is not None:
-        portfolio = quick.portfolio
-        known = set(portfolio.devices) | {u.uid for p in portfolio.properties for u in p.units} \
-            | {p.id for p in portfolio.properties}
-        if all(uid in known for uid in uids):  # else the whole load says what is wrong, with suggestions
-            return quick
-    return load_or_exit(records_dir, as_of, refusal)
+    if quick is None:
+        return None
+    portfolio = quick.portfolio
+    known = set(portfolio.devices) | {u.uid for p in portfolio.properties for u in p.units} \
+        | {p.id for p in portfolio.properties}
+    return quick if all(uid in known for uid in uids) else None
+
+
+def load_about(records_dir: Path, as_of: date, uids: list[str], refusal: str = "") -> Loaded:
+    """The records a command about these devices, units or properties needs (`quick_about`), or all of
+    them, or exit 1 as `load_or_exit` does."""
+    return quick_about(records_dir, as_of, uids) or load_or_exit(records_dir, as_of, refusal)
 
 
 def exit_unless_usable(loaded: Loaded, records_dir: Path, refusal: str = "", need_records: bool = True) -> None:

@@ -12,7 +12,7 @@ from ..findings_cache import cached_evaluate
 from ..schedule import State
 from ..status import monitor_line, status_json, status_text
 from .options import (command, EXIT_ERRORS, EXIT_OK, EXIT_OVERDUE, as_of_day, as_of_option, exit_unless_usable,
-                      format_option, load, load_or_exit, print_json, records_option, today)
+                      format_option, load, load_or_exit, print_json, quick_about, records_option)
 
 # The open monitoring-plugin convention: 0 OK, 1 WARNING, 2 CRITICAL, 3 UNKNOWN.
 MONITOR_OK, MONITOR_SOON, MONITOR_OVERDUE, MONITOR_UNREADABLE = 0, 1, 2, 3
@@ -61,15 +61,11 @@ def status(records_dir: Path, as_of, fmt: str, show_ok: bool, properties, units,
     due, 1 something due soon, 2 something overdue, 3 records unreadable.
 
     Example:  recordkit status --property tansy-house --within 30"""
-    from ..quickload import quick_load
-
     day = as_of_day(as_of)
     chosen = set(properties) | {uid.split("/", 1)[0] for uid in units}
     # Asked about a few properties: only they are read when the records are as the last clean load left
     # them, and their checks alone give the same findings about them.
-    loaded = quick_load(records_dir, chosen, day, today()) if chosen else None
-    if loaded is None or not set(units) <= {u.uid for p in loaded.portfolio.properties for u in p.units}:
-        loaded = load(records_dir, day)
+    loaded = (quick_about(records_dir, day, [*properties, *units]) if chosen else None) or load(records_dir, day)
     if monitor and (loaded.problems or not loaded.portfolio.properties):
         why = f"{len(loaded.problems)} problem(s) in the records" if loaded.problems else "no property records"
         click.echo(f"ALARM RECORDS UNKNOWN - {records_dir}: {why}")
