@@ -269,7 +269,7 @@ class Portfolio:
         return by_device
 
     @cached_property
-    def _sorted(self) -> dict[str, tuple[Event, ...]]:
+    def _sorted(self) -> dict[str, tuple[Event, ...]]:  # each device's sorted events, filled by events_for
         return {}
 
     @property
