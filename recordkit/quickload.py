@@ -33,6 +33,8 @@ FORMAT = 1
 
 def save_manifest(cache: ParseCache, fileset: str, digests: dict[str, str], stats: dict[str, Any],
                   portfolio: m.Portfolio, inside_of: dict[str, str], hashes: Digests) -> None:
+    from .status_cache import outline_of  # (it imports this module)
+
     now = time.time()
     event_files: dict[str, set[str]] = {}
     for device, held in hashes.events.items():
@@ -43,7 +45,8 @@ def save_manifest(cache: ParseCache, fileset: str, digests: dict[str, str], stat
                          now - stats[name].st_mtime <= RACY_SECONDS] for name, digest in digests.items()},
         "properties": {p.id: inside_of[p.source.path] for p in portfolio.properties},
         "event_files": {pid: sorted(files) for pid, files in event_files.items()},
-        "heard": {p.id: sorted(heard) for p in portfolio.properties if (heard := portfolio.heard(p))}})
+        "heard": {p.id: sorted(heard) for p in portfolio.properties if (heard := portfolio.heard(p))},
+        "outline": outline_of(portfolio.properties)})
 
 
 def quick_load(root: Path, property_ids: set[str], as_of: date, today: date | None = None) -> Loaded | None:
@@ -56,7 +59,9 @@ def quick_load(root: Path, property_ids: set[str], as_of: date, today: date | No
         return None
 
 
-def _quick(root: Path, cache: ParseCache, property_ids: set[str], as_of: date, today: date) -> Loaded | None:
+def current_manifest(root: Path, cache: ParseCache, today: date) -> tuple[dict, dict[str, Path], float] | None:
+    """The manifest, the record files by name and the newest file's time, when every record file is
+    exactly as the last clean load (with no event after `today`) left it; else None."""
     manifest = cache.note(KIND, "records")
     if not isinstance(manifest, dict) or manifest.get("format") != FORMAT \
             or not cache.loaded_clean(manifest["fileset"], today):
@@ -76,6 +81,15 @@ def _quick(root: Path, cache: ParseCache, property_ids: set[str], as_of: date, t
         if racy and hashlib.blake2b(read_regular(path, stat.st_size + 1), digest_size=16).hexdigest() != digest:
             return None
         newest = max(newest, stat.st_mtime)
+    return manifest, named, newest
+
+
+def _quick(root: Path, cache: ParseCache, property_ids: set[str], as_of: date, today: date) -> Loaded | None:
+    current = current_manifest(root, cache, today)
+    if current is None:
+        return None
+    manifest, named, newest = current
+    problems = Problems()
     wanted = set(property_ids)
     if not wanted <= set(manifest["properties"]):
         return None
@@ -100,7 +114,7 @@ def _quick(root: Path, cache: ParseCache, property_ids: set[str], as_of: date, t
     if as_of < today and any(e.date > as_of for e in events):  # a past view, as the loader gives it
         portfolio = m.Portfolio(portfolio.properties, tuple(e for e in events if e.date <= as_of))
     last = datetime.fromtimestamp(newest, timezone.utc) if newest else None
-    return Loaded(str(root), portfolio, policy, [], [str(p) for p in paths], last, None, partial=True)
+    return Loaded(str(root), portfolio, policy, [], [str(p) for p in named.values()], last, None, partial=True)
 
 
 def refresh_after_append(root: Path, paths: list[Path], appended: list) -> bool:

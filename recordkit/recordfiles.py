@@ -32,7 +32,8 @@ def record_files(root: Path, problems: Problems) -> list[Path]:
             if name in NOT_RECORDS and Path(folder) == root:
                 continue
             path = Path(folder) / name
-            if not path.resolve().is_relative_to(real_root):
+            # (its folders are real ones inside root: only a link can lead out)
+            if os.path.islink(path) and not path.resolve().is_relative_to(real_root):
                 problems.add(Source(str(path), 0), "links outside the records folder; refused "
                              "(copy the file into the folder instead)")
                 continue

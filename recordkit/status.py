@@ -1,6 +1,7 @@
 """The status report: findings for one as-of date, as text (80 columns) or JSON."""
 from __future__ import annotations
 
+import functools
 import textwrap
 from collections import Counter
 from datetime import date
@@ -25,9 +26,10 @@ def status_json(findings: list[Finding], as_of: date, root: str) -> dict:
             "items": [f.as_json() for f in findings]}
 
 
-def monitor_line(findings: list[Finding], as_of: date) -> str:
-    """One line in the open monitoring-plugin style: a status word, a summary and performance data."""
-    tally = counts(findings)
+def monitor_line(findings: list[Finding], as_of: date, tally: Counter | None = None) -> str:
+    """One line in the open monitoring-plugin style: a status word, a summary and performance data.
+    `tally`: the count of each state, when `findings` leaves out those in date."""
+    tally = tally or counts(findings)
     overdue, soon = tally[State.OVERDUE], tally[State.DUE_SOON]
     word = "CRITICAL" if overdue else "WARNING" if soon else "OK"
     first = next((f for f in sorted(findings, key=lambda f: f.state.rank) if f.state is not State.OK), None)
@@ -45,8 +47,11 @@ def _when(finding: Finding, as_of: date) -> str:
     return f"due {finding.due}" + (" (today)" if days == 0 else f" (in {days} days)")
 
 
-def status_text(findings: list[Finding], portfolio: m.Portfolio, as_of: date, show_ok: bool = False) -> str:
-    tally = counts(findings)
+def status_text(findings: list[Finding], portfolio: m.Portfolio, as_of: date, show_ok: bool = False,
+                tally: Counter | None = None) -> str:
+    """`portfolio`: anything with properties, their units and names (a `status_cache.Outline` will do);
+    `tally`: the count of each state, when `findings` leaves out those in date."""
+    tally = tally or counts(findings)
     lines = [f"Alarm records as of {as_of}: {tally[State.OVERDUE]} overdue, "
              f"{tally[State.DUE_SOON]} due soon, {tally[State.OK]} in date", ""]
     shown = [f for f in findings if show_ok or f.state is not State.OK]
@@ -69,12 +74,19 @@ def status_text(findings: list[Finding], portfolio: m.Portfolio, as_of: date, sh
         lines.append("")
     if not shown:
         lines += ["Nothing is overdue or due soon.", ""]
-    hidden = len(findings) - len(shown)
+    hidden = sum(tally.values()) - len(shown)
     if hidden:
         lines += [f"{hidden} tasks not yet due are not shown (--all shows them).", ""]
     lines += _wrap(SHORT, "")
     return "\n".join(lines) + "\n"
 
 
+@functools.lru_cache(maxsize=4096)  # rules and their sources repeat on every device
+def _wrapped(text: str, indent: str) -> tuple[str, ...]:
+    if text and len(indent) + len(text) <= WIDTH and text.isprintable() and text == text.strip(" "):
+        return (indent + text,)  # what textwrap gives a short line, at a fraction of the cost
+    return tuple(textwrap.wrap(text, WIDTH, initial_indent=indent, subsequent_indent=indent + "  "))
+
+
 def _wrap(text: str, indent: str) -> list[str]:
-    return textwrap.wrap(text, WIDTH, initial_indent=indent, subsequent_indent=indent + "  ")
+    return list(_wrapped(text, indent))

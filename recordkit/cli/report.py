@@ -11,8 +11,9 @@ from ..checks import TASK_ORDER, evaluate
 from ..findings_cache import cached_evaluate
 from ..schedule import State
 from ..status import monitor_line, status_json, status_text
+from ..status_cache import quick_status, remember
 from .options import (command, EXIT_ERRORS, EXIT_OK, EXIT_OVERDUE, as_of_day, as_of_option, exit_unless_usable,
-                      format_option, load, load_or_exit, print_json, quick_about, records_option)
+                      format_option, load, load_or_exit, print_json, quick_about, records_option, today)
 
 # The open monitoring-plugin convention: 0 OK, 1 WARNING, 2 CRITICAL, 3 UNKNOWN.
 MONITOR_OK, MONITOR_SOON, MONITOR_OVERDUE, MONITOR_UNREADABLE = 0, 1, 2, 3
@@ -63,25 +64,36 @@ def status(records_dir: Path, as_of, fmt: str, show_ok: bool, properties, units,
     Example:  recordkit status --property tansy-house --within 30"""
     day = as_of_day(as_of)
     chosen = set(properties) | {uid.split("/", 1)[0] for uid in units}
-    # Asked about a few properties: only they are read when the records are as the last clean load left
-    # them, and their checks alone give the same findings about them.
-    loaded = (quick_about(records_dir, day, [*properties, *units]) if chosen else None) or load(records_dir, day)
-    if monitor and (loaded.problems or not loaded.portfolio.properties):
-        why = f"{len(loaded.problems)} problem(s) in the records" if loaded.problems else "no property records"
-        click.echo(f"ALARM RECORDS UNKNOWN - {records_dir}: {why}")
-        sys.exit(MONITOR_UNREADABLE)
-    if loaded.problems and fmt == "json":
-        errors = [{"file": p.source.path, "line": p.source.line, "message": p.message} for p in loaded.problems]
-        print_json({"as_of": day.isoformat(), "records": str(records_dir), "errors": errors, "items": []})
-        sys.exit(EXIT_ERRORS)
-    exit_unless_usable(loaded, records_dir)
-    known_units = {u.uid for p in loaded.portfolio.properties for u in p.units}
-    for wanted, known, what in ((properties, {p.id for p in loaded.portfolio.properties}, "property"),
-                                (units, known_units, "unit")):
-        if missing := [x for x in wanted if x not in known]:
-            raise click.UsageError(f"no {what} {', '.join(map(repr, missing))}")
-    findings = evaluate(loaded.portfolio.only(chosen), loaded.policy, day) if chosen \
-        else cached_evaluate(loaded, loaded.policy, day)
+    # The whole portfolio, when the records are as the last clean load left them: each property's findings
+    # as kept with its files' hashes (see status_cache); a plain listing needs only those not in date.
+    everything = fmt == "json" or show_ok or bool(tasks) or within is not None
+    quick = None if chosen else quick_status(records_dir, day, today(), everything)
+    if quick is not None:
+        findings, outline, tally = quick.findings, quick.outline, None if everything else quick.tally
+    else:
+        # Asked about a few properties: only they are read when the records are as the last clean load left
+        # them, and their checks alone give the same findings about them.
+        loaded = (quick_about(records_dir, day, [*properties, *units]) if chosen else None) or load(records_dir, day)
+        if monitor and (loaded.problems or not loaded.portfolio.properties):
+            why = f"{len(loaded.problems)} problem(s) in the records" if loaded.problems else "no property records"
+            click.echo(f"ALARM RECORDS UNKNOWN - {records_dir}: {why}")
+            sys.exit(MONITOR_UNREADABLE)
+        if loaded.problems and fmt == "json":
+            errors = [{"file": p.source.path, "line": p.source.line, "message": p.message} for p in loaded.problems]
+            print_json({"as_of": day.isoformat(), "records": str(records_dir), "errors": errors, "items": []})
+            sys.exit(EXIT_ERRORS)
+        exit_unless_usable(loaded, records_dir)
+        known_units = {u.uid for p in loaded.portfolio.properties for u in p.units}
+        for wanted, known, what in ((properties, {p.id for p in loaded.portfolio.properties}, "property"),
+                                    (units, known_units, "unit")):
+            if missing := [x for x in wanted if x not in known]:
+                raise click.UsageError(f"no {what} {', '.join(map(repr, missing))}")
+        if chosen:
+            findings = evaluate(loaded.portfolio.only(chosen), loaded.policy, day)
+        else:
+            findings = cached_evaluate(loaded, loaded.policy, day)
+            remember(records_dir, findings, day, today())
+        outline, tally = loaded.portfolio, None
     findings = [f for f in findings
                 if (not properties or f.unit.split("/", 1)[0] in properties)
                 and (not units or f.unit in units) and (not tasks or f.task in tasks)
@@ -89,13 +101,13 @@ def status(records_dir: Path, as_of, fmt: str, show_ok: bool, properties, units,
                      or (f.due is not None and f.due <= day + timedelta(days=within)))]
     overdue = any(f.state is State.OVERDUE for f in findings)
     if monitor:
-        click.echo(monitor_line(findings, day))
+        click.echo(monitor_line(findings, day, tally))
         soon = any(f.state is State.DUE_SOON for f in findings)
         sys.exit(MONITOR_OVERDUE if overdue else MONITOR_SOON if soon else MONITOR_OK)
     if fmt == "json":
         print_json(status_json(findings, day, str(records_dir)))
     else:
-        click.echo(status_text(findings, loaded.portfolio, day, show_ok or within is not None), nl=False)
+        click.echo(status_text(findings, outline, day, show_ok or within is not None, tally), nl=False)
     sys.exit(EXIT_OVERDUE if overdue else EXIT_OK)
 
 
