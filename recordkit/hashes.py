@@ -20,6 +20,13 @@ def digest(parts: Any, size: int = 16) -> str:
                            digest_size=size).hexdigest()
 
 
+def joined_digest(*parts: str) -> str:
+    """A hash of a list of texts, each with its length (so no two lists give the same text): for keys
+    made of many other hashes and texts, a fraction of the cost of `digest`."""
+    return hashlib.blake2b("".join(f"{len(part)}:{part}" for part in parts).encode("utf-8", "surrogatepass"),
+                           digest_size=16).hexdigest()
+
+
 def _plain(value: Any) -> Any:
     """A value as JSON data that is the same in every process (a set's order is not: string hashes are
     salted per process, so sets are sorted)."""

@@ -14,7 +14,7 @@ from datetime import date, datetime, timezone
 from pathlib import Path
 from typing import Any
 
-from . import csvlog, progress
+from . import csvlog, memo, progress
 from . import model as m
 from .cache import (EVIDENCE_PATTERN, ParseCache, decode_events, decode_property, encode_events, encode_property,
                     record_digests)
@@ -120,6 +120,7 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
     stats: dict[str, Any] = {}
     shown_of: dict[str, str] = {}
     reading = progress.bar(len(paths), "Reading records", "file")
+    folder = str(root.resolve())
     for path in paths:
         reading.update()
         shown = str(path)
@@ -127,12 +128,24 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
         inside_of[shown], shown_of[inside] = inside, shown
         is_policy = path.parent == root and path.name == POLICY_FILE
         try:
+            if cache and not is_policy and (known := memo.recall(folder, shown, stat := path.stat())):
+                newest = max(newest, stat.st_mtime)
+                digests.append((inside, known.digest))
+                stats[inside] = stat
+                builder.add_decoded(known.events, known.prop)
+                if record_hashes is not None and known.digests is not None:
+                    record_hashes.add(known.digests, inside)
+                continue
             limit = csvlog.MAX_CSV_BYTES if path.suffix == CSV_SUFFIX else MAX_FILE_BYTES
             payload, data, stat, digest = parse_cache.get(path, inside, limit)
             newest = max(newest, stat.st_mtime)
             digests.append((inside, digest))
             stats[inside] = stat
-            if payload is not None and not is_policy and builder.add_cached(payload, shown, record_hashes, inside):
+            if payload is not None and not is_policy \
+                    and (decoded := builder.add_cached(payload, shown, record_hashes, inside)):
+                if cache:
+                    memo.remember(folder, shown, stat, memo.Decoded(stat.st_size, stat.st_mtime_ns, digest,
+                                                                    *decoded, payload.get("digests")))
                 continue
             if data is None:
                 data = path.read_bytes()
@@ -161,6 +174,11 @@ def _load(root: Path, as_of: date, cache: bool, today: date) -> Loaded:
             parse_cache.put(inside, stat, digest, payload)
             if record_hashes is not None:
                 record_hashes.add(payload["digests"], inside)
+            if cache:
+                prop = builder.properties[-1] if len(builder.properties) > properties_before else None
+                memo.remember(folder, shown, stat, memo.Decoded(stat.st_size, stat.st_mtime_ns, digest,
+                                                                tuple(builder.events[events_before:]), prop,
+                                                                payload.get("digests")))
     reading.close()
     # The checks across files (an event's device exists, was in service, ...) depend only on the files'
     # content and, for "not after the as-of date", on the newest event: skip them when this exact set of
@@ -248,19 +266,24 @@ class _Builder:
             payload["digests"] = {**record_digests(prop, events), **({"id": prop.id} if prop else {})}
         return payload
 
-    def add_cached(self, payload: Any, path: str, digests: "Digests | None" = None, inside: str = "") -> bool:
-        """Add a file from its cache entry; False (nothing added) when the entry is damaged."""
+    def add_cached(self, payload: Any, path: str, digests: "Digests | None" = None,
+                   inside: str = "") -> tuple[tuple[m.Event, ...], m.Property | None] | None:
+        """Add a file from its cache entry: (its events, its property); None (nothing added) when the entry
+        is damaged."""
         try:
-            events = decode_events(payload["events"], path, self._shared, self._day)
+            events = tuple(decode_events(payload["events"], path, self._shared, self._day))
             prop = decode_property(payload["property"], path) if "property" in payload else None
             if digests is not None:
                 digests.add(payload["digests"], inside)
         except (ValueError, KeyError, IndexError, TypeError, AttributeError):
-            return False
+            return None
+        self.add_decoded(events, prop)
+        return events, prop
+
+    def add_decoded(self, events: tuple[m.Event, ...], prop: m.Property | None) -> None:
         if prop is not None:
             self._add_property(prop)
         self.events.extend(events)
-        return True
 
     def _shared(self, text: str) -> str:
         """One copy of each repeated string (device ids, 'tenant'): millions of events share them."""

@@ -11,6 +11,7 @@ import contextlib
 import logging
 import os
 import time
+import types
 from datetime import date
 from pathlib import Path
 from typing import Callable, Iterator
@@ -20,6 +21,7 @@ from mkdocs.config.defaults import MkDocsConfig
 from mkdocs.exceptions import Abort, MkDocsException, PluginError
 from mkdocs.plugins import BasePlugin, event_priority
 from mkdocs.structure.files import File, Files, InclusionLevel
+from mkdocs.utils import get_build_date
 
 from . import progress
 from .cautions import SHORT
@@ -27,10 +29,11 @@ from .findings_cache import cached_evaluate
 from .loader import load_records
 from .serving import ServeLog, watch_records
 from .recordfiles import SITE_CONFIGS
+from .render.compiled import keep_compiled
 from .render.labels import ASSETS, DEFAULT_SITE_CONFIG
 from .render.site import Page, part_marker, site_pages
 from .hashes import digest
-from .render_cache import RenderIndex, read_index
+from .render_cache import RenderIndex, dest_of, read_index
 from .rules import Interval, Rule
 
 log = logging.getLogger("mkdocs.plugins.recordkit")
@@ -62,14 +65,13 @@ class MadeFile(File):
     kept: dict | None = None  # the render cache's entry when the last build's file is kept
     bar: progress.Bar | None = None
 
+    position = 0  # the page's place among the generated pages
+
     @classmethod
-    def of(cls, config: MkDocsConfig, page: Page, inclusion: InclusionLevel,
-           index: RenderIndex | None) -> "MadeFile":
+    def of(cls, config: MkDocsConfig, page: Page, inclusion: InclusionLevel, index: RenderIndex | None,
+           kept: dict | None, position: int) -> "MadeFile":
         made = cls.generated(config, page.src_uri, content="", inclusion=inclusion)
-        made.made = page
-        made.index = index
-        if index is not None:
-            made.kept = index.kept_entry(page.src_uri, page.key, made.abs_dest_path)
+        made.made, made.index, made.kept, made.position = page, index, kept, position
         return made
 
     @property
@@ -103,6 +105,23 @@ class MadeFile(File):
             self.bar.update()
 
 
+class LeftOut:
+    """A kept page of a unit whose pages are all kept: left out of MkDocs' view (no file, page or
+    navigation entry made for it), it still has its search entries and its sitemap line (from the index)."""
+
+    inclusion = InclusionLevel.NOT_IN_NAV
+
+    def __init__(self, page: Page, kept: dict, dest_uri: str, position: int, update_date: str):
+        self.src_uri, self.dest_uri, self.kept, self.position = page.src_uri, dest_uri, kept, position
+        self.documentation = page.src_uri.endswith(".md")
+        self.page = types.SimpleNamespace(is_link=False, canonical_url=kept.get("canonical_url"),
+                                          abs_url=kept.get("abs_url"), update_date=update_date) \
+            if self.documentation else None
+
+    def is_documentation_page(self) -> bool:
+        return self.documentation
+
+
 class _QuietDirty(logging.Filter):
     """MkDocs warns that a build keeping pages may leave navigation stale; ours cannot: a page is kept
     only while its key, which holds the navigation and settings (the frame), is unchanged."""
@@ -122,6 +141,8 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         self.index: RenderIndex | None = None
         self.files: Files | None = None
         self.made_files: list[MadeFile] = []
+        self.left_out: list[LeftOut] = []  # kept pages MkDocs is not shown (see on_files)
+        self.env = self.nav = None
         self.search_entries: dict[str, list] = {}  # this build's search entries of each page it made
         self.indexed = 0
         self.nav_names: list = []
@@ -202,9 +223,14 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             self.index = RenderIndex(self.records_dir, site_dir, self._frame(config, own), old)
         else:
             self.index = None
-        self.made_files = []
+        self.made_files, self.left_out = [], []
         self.search_entries = {}
         self.indexed = 0
+        directory_urls = config.use_directory_urls
+        kept: dict[str, dict | None] = {}
+        dests: dict[str, str] = {}
+        changed_units: set[str] = set()
+        update_date = get_build_date()  # (what MkDocs gives every page it makes)
         for page in self.pages.values():
             parts = page.src_uri.split("/")
             if page.src_uri.startswith("/") or any(part in ("", ".", "..") for part in parts):
@@ -212,8 +238,17 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             if files.get_file_from_path(page.src_uri):
                 raise PluginError(f"recordkit: {page.src_uri} is generated from the records; "
                                   f"remove the hand-written file of that name from {config.docs_dir}")
+            dests[page.src_uri] = dest = dest_of(page.src_uri, directory_urls)
+            kept[page.src_uri] = entry = self.index.kept_entry(page.src_uri, page.key, dest) if self.index else None
+            if entry is None and page.unit is not None:
+                changed_units.add(page.unit)
+        for position, page in enumerate(self.pages.values()):
+            entry = kept[page.src_uri]
+            if entry is not None and page.unit is not None and page.unit not in changed_units:
+                self.left_out.append(LeftOut(page, entry, dests[page.src_uri], position, update_date))
+                continue
             inclusion = InclusionLevel.UNDEFINED if page.in_nav and not page.static else InclusionLevel.NOT_IN_NAV
-            made = MadeFile.of(config, page, inclusion, self.index)
+            made = MadeFile.of(config, page, inclusion, self.index, entry, position)
             self.made_files.append(made)
             files.append(made)
         for file in own:
@@ -250,7 +285,12 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                        [(name, dict(plugin.config)) for name, plugin in config.plugins.items()],
                        theme_files, hand_written, self.nav_names])
 
+    def on_nav(self, nav, /, *, config: MkDocsConfig, files: Files):
+        self.nav = nav
+        return nav
+
     def on_env(self, env, /, *, config: MkDocsConfig, files: Files):
+        self.env = keep_compiled(env)
         for made in self.made_files:  # a kept page keeps its title (the navigation shows it)
             if made.kept is not None and made.page is not None and made.kept.get("title"):
                 made.page.title = made.kept["title"]
@@ -284,30 +324,51 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             for made in self.made_files:
                 if made.kept is None and made.is_documentation_page() and made.page is not None:
                     index.wrote(made.src_uri, made.made.key, made.abs_dest_path, made.page.title,
-                                self.search_entries.get(made.src_uri))
+                                self.search_entries.get(made.src_uri), (made.page.canonical_url, made.page.abs_url))
+            pages = self._documentation_pages(files)
             search = _search_index(config)
             if search is not None:  # every page's entries in page order, as a full build lists them
                 entries: list = []
-                for file in files.documentation_pages():
+                for file in pages:
                     kept = getattr(file, "kept", None)
                     entries += self.search_entries.get(file.src_uri) or (kept or {}).get("search") or []
                 search.entries = entries
                 config.plugins["material/search"].search_index_prev = None
-            outputs = {f.dest_uri for f in files}
+            if self.left_out and config.site_url and self.env is not None and self.nav is not None:
+                from mkdocs.commands.build import _build_theme_template  # (pinned: mkdocs==1.6.1)
+
+                # MkDocs' own sitemap, again, with the pages it did not see: as a full build writes it
+                _build_theme_template("sitemap.xml", self.env, Files(pages), config, self.nav)
+            outputs = {f.dest_uri for f in files} | {f.dest_uri for f in self.left_out}
             index.remove_stale(outputs)
             index.save(outputs)
             self.summary = f"{index.made} page(s) made, {index.kept} kept as they were"
             log.info("recordkit: built in %.1f s: %s", time.perf_counter() - self.started, self.summary)
         self.bar.close()
-        self.pages = {}  # let the records go: `mkdocs serve` loads them afresh on the next build
-        self.made_files = []
-        self.files = None
+        self._let_go()
+
+    def _documentation_pages(self, files: Files) -> list:
+        """Every page in the order a full build has them: MkDocs' pages with the left-out ones put back in
+        their places among the generated pages."""
+        left_out = [f for f in self.left_out if f.is_documentation_page()]
+        pages, at = [], 0
+        for file in files.documentation_pages():
+            if isinstance(file, MadeFile):
+                while at < len(left_out) and left_out[at].position < file.position:
+                    pages.append(left_out[at])
+                    at += 1
+            pages.append(file)
+        return pages + left_out[at:]
+
+    def _let_go(self) -> None:
+        """Let the records go: `mkdocs serve` loads them afresh on the next build."""
+        self.pages = {}
+        self.made_files, self.left_out = [], []
+        self.files = self.env = self.nav = None
 
     def on_build_error(self, *, error: Exception) -> None:
         self.bar.close()
-        self.pages = {}
-        self.made_files = []
-        self.files = None
+        self._let_go()
 
     def on_serve(self, server, /, *, config: MkDocsConfig, builder):
         if self.records_dir:

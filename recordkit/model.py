@@ -5,11 +5,13 @@ point the user back to the line they wrote.
 """
 from __future__ import annotations
 
+import operator
 from dataclasses import dataclass
 from datetime import date
 from datetime import time as time_of_day
 from enum import StrEnum
 from functools import cached_property
+from itertools import compress, repeat
 from typing import NamedTuple
 
 from .errors import Source
@@ -242,6 +244,9 @@ class Event(NamedTuple):
         return Source(self.path, self.line)
 
 
+_ACTION = operator.itemgetter(Event._fields.index("action"))  # (quicker than an attribute in a map)
+
+
 @dataclass(frozen=True)
 class Located:
     """A device together with the unit and property that hold it."""
@@ -297,7 +302,11 @@ class Portfolio:
             if prop.id in property_ids:
                 ids.update(self.heard(prop))
         properties = tuple(p for p in self.properties if p.id in ids)
-        events = tuple(e for p in properties for u in p.units for d in u.devices for e in self.events_for(d.uid))
+        if "_unsorted" in self.__dict__:  # already grouped by device
+            events = tuple(e for p in properties for u in p.units for d in u.devices for e in self.events_for(d.uid))
+        else:  # one pass picking theirs (in file order, which `events_for` sorts alike) beats grouping all
+            wanted = {d.uid for p in properties for u in p.units for d in u.devices}
+            events = tuple(e for e in self.events if e.device in wanted)
         return Portfolio(properties, events + tuple(added))
 
     def heard(self, prop: Property) -> set[str]:
@@ -318,8 +327,10 @@ class Portfolio:
     @cached_property
     def _retirements(self) -> dict[str, date]:
         retired: dict[str, date] = {}
-        for event in self.events:
-            if event.action is Action.REPLACE and (event.device not in retired or event.date < retired[event.device]):
+        # (the replacements picked out in C: a Python test of each of millions of events is the slow part)
+        events = self.events
+        for event in compress(events, map(operator.is_, map(_ACTION, events), repeat(Action.REPLACE))):
+            if event.device not in retired or event.date < retired[event.device]:
                 retired[event.device] = event.date
         for uid, located in self.devices.items():
             removed = located.device.removed

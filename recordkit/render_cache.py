@@ -15,10 +15,20 @@ from pathlib import Path
 from typing import Any
 
 from .cache import ParseCache
-from .hashes import digest
+from .hashes import joined_digest
 
 KIND = "render-index"
-FORMAT = 1
+FORMAT = 2  # 2: each page's address for the sitemap
+
+
+def dest_of(uri: str, directory_urls: bool) -> str:
+    """Where MkDocs 1.6 writes the file made from `uri` (its `File.dest_uri`), without making the File."""
+    if not uri.endswith(".md"):
+        return uri
+    parent, _, name = uri[:-3].rpartition("/")
+    stem = "index" if name == "README" else name
+    path = f"{stem}.html" if not directory_urls or stem == "index" else f"{stem}/index.html"
+    return f"{parent}/{path}" if parent else path
 
 
 def read_index(records_dir: Path, site_dir: Path) -> dict | None:
@@ -42,15 +52,16 @@ class RenderIndex:
         self.kept = self.made = 0
 
     def full_key(self, key: str) -> str:
-        return digest([self.frame, key])
+        return joined_digest(self.frame, key)
 
-    def kept_entry(self, uri: str, key: str | None, dest: str) -> dict | None:
-        """The last build's entry for this page, when its key is unchanged and its file is as written."""
+    def kept_entry(self, uri: str, key: str | None, dest_uri: str) -> dict | None:
+        """The last build's entry for this page, when its key is unchanged and its file (`dest_uri`, in the
+        site folder) is as written."""
         entry = self.old.get(uri)
         if key is None or not isinstance(entry, dict) or entry.get("key") != self.full_key(key):
             return None
         try:
-            stat = os.stat(dest)
+            stat = os.stat(os.path.join(self.site_dir, dest_uri))
         except OSError:
             return None
         if (stat.st_size, stat.st_mtime_ns) != (entry.get("size"), entry.get("mtime_ns")):
@@ -60,7 +71,7 @@ class RenderIndex:
         return entry
 
     def wrote(self, uri: str, key: str | None, dest: str, title: str | None = None,
-              search: list | None = None) -> None:
+              search: list | None = None, urls: tuple[str | None, str | None] = (None, None)) -> None:
         """A page was made and written: remember it for the next build."""
         self.made += 1
         if key is None:
@@ -70,7 +81,7 @@ class RenderIndex:
         except OSError:
             return
         self.pages[uri] = {"key": self.full_key(key), "size": stat.st_size, "mtime_ns": stat.st_mtime_ns,
-                           "title": title, "search": search}
+                           "title": title, "search": search, "canonical_url": urls[0], "abs_url": urls[1]}
 
     def pieces_of(self, uri: str, dest: str) -> dict[str, tuple[str, str]]:
         """The pieces of a file made of pieces (the calendar) as the last build wrote them, read back from

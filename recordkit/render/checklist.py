@@ -18,6 +18,7 @@ from ..checks import Finding, last_event, urgency
 from ..loader import Loaded
 from ..schedule import State
 from .labels import STATE_LABELS, TASK_LABELS, TEMPLATES, kind_label
+from .compiled import keep_compiled
 
 PAPER_SIZES = {"a4": "A4 landscape", "letter": "letter landscape", "any": "landscape"}
 BUTTON_TEST_CAUTION = CAUTIONS[1]
@@ -46,8 +47,8 @@ class UnitSheet:
     gaps: list[str]                # rooms with a coverage gap (filled once coverage checks exist)
 
 
-_env = jinja2.Environment(loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=True,
-                          trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined)
+_env = keep_compiled(jinja2.Environment(loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=True,
+                                        trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined))
 _env.globals.update(kind_label=kind_label, state_labels=STATE_LABELS, short_caution=SHORT,
                     button_caution=BUTTON_TEST_CAUTION, kinds=list(m.Kind), powers=list(m.Power),
                     uses=list(m.RoomUse), sensors=list(m.Sensor), appliances=list(m.Appliance))

@@ -13,12 +13,11 @@ from __future__ import annotations
 import os
 from datetime import date
 from pathlib import Path
-from typing import Any
 
 from .. import model as m
 from ..checks import Finding
 from ..evidence import evidence_path
-from ..hashes import code_digest, digest, policy_digest
+from ..hashes import code_digest, digest, joined_digest, policy_digest
 from ..loader import Digests
 from ..rules import Policy
 
@@ -40,9 +39,11 @@ class PageKeys:
         self._units: dict[str, str] = {}
         self.site = digest([code_digest(), policy_digest(policy), as_of, *settings]) if digests else ""
 
-    def _device_inputs(self, device: m.Device) -> list:
-        return [self.digests.events.get(device.uid, []), [_finding_text(f) for f in self.by_device.get(device.uid, [])],
-                [self._recording(ref) for ref in self.digests.evidence.get(device.uid, [])]]
+    def _device_inputs(self, device: m.Device) -> list[str]:
+        recordings = self.digests.evidence.get(device.uid)
+        return [device.uid, *self.digests.events.get(device.uid, ()), "findings",
+                *(_finding_text(f) for f in self.by_device.get(device.uid, ())),
+                *([str(self._recording(ref)) for ref in recordings] if recordings else ()), "end"]
 
     def _recording(self, reference: str) -> list:
         """A kept recording as its page shows it: there or not, and which file (size and time)."""
@@ -59,21 +60,21 @@ class PageKeys:
         return known
 
     def _unit_inputs(self, prop: m.Property, unit: m.Unit) -> str:
-        parts: list[Any] = [self.digests.properties.get(prop.id), self.digests.units.get(unit.uid),
-                            [_finding_text(f) for f in self.by_device.get(unit.uid, [])]]
+        parts: list[str] = [str(self.digests.properties.get(prop.id)), str(self.digests.units.get(unit.uid)),
+                            *(_finding_text(f) for f in self.by_device.get(unit.uid, ()))]
         for device in unit.devices:
-            parts.append(self._device_inputs(device))
+            parts += self._device_inputs(device)
             if device.kind is m.Kind.LISTENING_NODE:  # what it hears is recorded in other units too
                 for _, target in self.portfolio.listened(device):
-                    parts.append([target.device.uid, self.digests.units.get(target.unit.uid),
-                                  self._device_inputs(target.device)])
-        return digest(parts)
+                    parts += ["hears", str(self.digests.units.get(target.unit.uid)), *self._device_inputs(target.device)]
+        return joined_digest(*parts)
 
     def unit_page(self, prop: m.Property, unit: m.Unit, uri: str) -> str | None:
-        return digest([self.site, uri, self.unit_inputs(prop, unit)]) if self.digests else None
+        return joined_digest(self.site, uri, self.unit_inputs(prop, unit)) if self.digests else None
 
     def property_page(self, prop: m.Property, uri: str) -> str | None:
         if not self.digests:
             return None
-        return digest([self.site, uri, self.digests.properties.get(prop.id),
-                       [self.unit_inputs(prop, unit) for unit in prop.units]])
+        return joined_digest(self.site, uri, str(self.digests.properties.get(prop.id)),
+                             *(self.unit_inputs(prop, unit) for unit in prop.units))
+

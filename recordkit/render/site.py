@@ -9,6 +9,7 @@ import functools
 import html
 import json
 import posixpath
+import collections
 from collections import Counter
 from dataclasses import dataclass
 from typing import Callable, Iterator
@@ -29,6 +30,7 @@ from .charts import (envelope_svg, forecast_svg, monthly_grid_svg, position_cell
 from ..schema import record_schema
 from ..rules import coverage_set_names
 from ..schedule import State
+from .compiled import keep_compiled
 from .checklist import (UnitSheet, blank_unit_html, findings_by_device, inspection_html, monthly_card_html,
                         unit_sheet, walkround_html)
 from .device_labels import device_address, grid, label_rows, labels_html
@@ -63,6 +65,9 @@ class Page:
     # For a file made of pieces, each with its own key (the calendar, a piece a unit): given the last
     # build's pieces {name: (key, text)}, the file's text and this build's pieces.
     pieces: Callable[[dict], tuple[str, dict]] | None = None
+    # The unit a unit's page or sheet belongs to: its Markdown links only to the unit's other pages and to
+    # pages not of a unit, so a build may leave a unit whose every page is kept out of MkDocs' view.
+    unit: str | None = None
 
 
 def part_marker(name: str) -> str:
@@ -199,12 +204,13 @@ class SiteBuilder:
                              (directory_urls, site_url, self.label_sheets, str(Path(loaded.root).resolve())),
                              Path(loaded.root))
         self.views = DeviceViews(self.portfolio, loaded.policy, by_device, as_of)
-        self.env = jinja2.Environment(
+        self.env = keep_compiled(jinja2.Environment(
             loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=False, finalize=md_text,
-            trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined, keep_trailing_newline=True)
+            trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined, keep_trailing_newline=True))
         # the HTML parts (put in after Markdown): a second environment that escapes for HTML
-        self.html_env = jinja2.Environment(loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=True,
-                                           trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined)
+        self.html_env = keep_compiled(jinja2.Environment(
+            loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=True, trim_blocks=True, lstrip_blocks=True,
+            undefined=jinja2.StrictUndefined))
         self.html_env.globals.update(badge=badge, state_labels=STATE_LABELS, kind_label=kind_label, room_notes=room_notes, task_label=TASK_LABELS.get, as_of=as_of,
                                     device_anchor=device_anchor)
         self.env.globals.update(badge=badge, anchor=anchor, front_title=front_title, task_label=TASK_LABELS.get, kind_label=kind_label,
@@ -283,14 +289,15 @@ class SiteBuilder:
             for unit in prop.units:
                 uri = unit_uri(prop, unit)
                 yield Page(uri, functools.partial(self.unit_page, prop, unit), in_nav=False,
-                           parts=functools.partial(self.unit_parts, prop, unit), key=keys.unit_page(prop, unit, uri))
+                           parts=functools.partial(self.unit_parts, prop, unit), key=keys.unit_page(prop, unit, uri),
+                           unit=unit.uid)
                 sheets = [(checklist_uri(prop, unit), functools.partial(self.inspection_sheets, prop, unit)),
                           (checklist_uri(prop, unit, monthly=True), functools.partial(self.monthly_card, prop, unit)),
                           (walkround_uri(prop, unit), functools.partial(self.walkround, prop, unit))]
                 if self.label_sheets:
                     sheets.append((labels_uri(prop, unit), functools.partial(self.labels, prop, unit)))
                 for uri, make in sheets:
-                    yield Page(uri, make, static=True, key=keys.unit_page(prop, unit, uri))
+                    yield Page(uri, make, static=True, key=keys.unit_page(prop, unit, uri), unit=unit.uid)
 
     def calendar(self, kept: dict[str, tuple[str, str]]) -> tuple[str, dict[str, tuple[str, str]]]:
         """The calendar file, each unit's tasks a piece kept from the last build while its key holds."""
@@ -394,9 +401,9 @@ class SiteBuilder:
 
     def _property_rows(self) -> list[dict]:
         """Per property: devices in service, overdue and due-soon tasks (for large portfolios)."""
-        counts: dict[str, Counter] = {}
+        counts = collections.defaultdict(Counter)  # (not setdefault: a Counter a finding is slow)
         for finding in self.findings:
-            counts.setdefault(finding.unit.split("/", 1)[0], Counter())[finding.state] += 1
+            counts[finding.unit.split("/", 1)[0]][finding.state] += 1
         return [{"prop": p, "devices": sum(len(u.devices) for u in p.units), "units": len(p.units),
                  "overdue": counts.get(p.id, Counter())[State.OVERDUE],
                  "due_soon": counts.get(p.id, Counter())[State.DUE_SOON]} for p in self.portfolio.properties]
@@ -425,7 +432,8 @@ class SiteBuilder:
         for uid, located in self.portfolio.devices.items():  # (not through the views: no histories needed)
             retired = self.portfolio.retired_on(uid)
             if retired is None or retired > self.as_of:
-                by_kind.setdefault(located.device.kind, Counter())[worst_state(self.by_device.get(uid, []))] += 1
+                kind = located.device.kind
+                (by_kind.get(kind) or by_kind.setdefault(kind, Counter()))[worst_state(self.by_device.get(uid, []))] += 1
         return by_kind, sum(by_kind.values(), Counter())
 
     def overview(self) -> str:
