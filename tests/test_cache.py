@@ -138,3 +138,31 @@ def test_an_event_file_added_after_a_clean_load_is_checked_like_a_cold_load(tmp_
     warm = load_records(folder, AS_OF)
     cold = load_records(folder, AS_OF, cache=False)
     assert warm.problems and warm.problems == cold.problems
+
+
+def test_a_second_load_in_one_process_reuses_unchanged_files_and_sees_changed_ones(tmp_path, monkeypatch):
+    """`serve` loads again after each edit: files unchanged since (and old enough to trust their time)
+    are not read again; an edited file is, and the load equals a cold one."""
+    from recordkit import memo
+    from recordkit.cache import ParseCache
+
+    folder = tmp_path / "records"
+    shutil.copytree(DEMO_RECORDS, folder, ignore=shutil.ignore_patterns(".recordkit"))
+    long_ago = 1_700_000_000  # (2023: a file time well past the racy window)
+    for path in folder.rglob("*.yaml"):
+        os.utime(path, (long_ago, long_ago))
+    memo.forget()
+    load_records(folder, AS_OF)
+    read: list[str] = []
+    original = ParseCache.get
+    monkeypatch.setattr(ParseCache, "get", lambda self, path, *a: read.append(path.name) or original(self, path, *a))
+    warm = load_records(folder, AS_OF)
+    assert [name for name in read if name != "policy.yaml"] == []  # every record file from memory
+    same(warm, load_records(folder, AS_OF, cache=False))
+    read.clear()
+    log = folder / "log" / "2026.yaml"
+    log.write_text(log.read_text().replace("by: tenant", "by: a tenant", 1))
+    os.utime(log, (long_ago + 60, long_ago + 60))
+    again = load_records(folder, AS_OF)
+    assert "2026.yaml" in read and any(e.by == "a tenant" for e in again.portfolio.events)
+    same(again, load_records(folder, AS_OF, cache=False))

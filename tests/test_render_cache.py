@@ -201,3 +201,43 @@ def test_an_output_file_edited_or_deleted_by_hand_is_made_again(tmp_path):
     sheet.unlink()
     build_site(records, AS_OF, site)
     assert_same_tree(site, build_site(records, AS_OF, tmp_path / "full"))
+
+
+def test_units_left_out_of_mkdocs_keep_their_sitemap_lines_and_search_entries(tmp_path, monkeypatch):
+    """With a site address and directory URLs: a build after one logged test shows MkDocs only the
+    changed unit, and still writes the sitemap and search index a full build writes."""
+    import gzip
+    import json
+
+    from recordkit import mkdocs_plugin
+    from recordkit.render_cache import dest_of
+
+    records, site = tmp_path / "records", tmp_path / "site"
+    generate(records, 120, 1, as_of=AS_OF)
+    (records / "mkdocs.yml").write_text("site_name: Invented lettings\nsite_url: https://alarms.example.org/records/\n"
+                                        "use_directory_urls: true\nplugins: [search]\n")  # (offline: no directories)
+    build_site(records, AS_OF, site)
+    loaded = load_records(records, AS_OF)
+    units = [u for p in loaded.portfolio.properties for u in p.units]
+    for unit in units:  # where MkDocs wrote each unit's page is where the render index looks for it
+        assert (site / dest_of(f"properties/{unit.uid}.md", True)).is_file()
+    device = sorted(loaded.portfolio.devices)[3]
+    cli(records, "log", device, "test", "--result", "fail", "--date", "2026-11-20", "--again")
+    seen: list[int] = []
+    original = mkdocs_plugin.RecordkitPlugin._documentation_pages
+
+    def count(self, files):
+        seen.append(len(self.left_out))
+        return original(self, files)
+    monkeypatch.setattr(mkdocs_plugin.RecordkitPlugin, "_documentation_pages", count)
+    build_site(records, AS_OF, site)
+    assert seen and seen[0] >= 4 * (len(units) - 1)  # every other unit's page and sheets left out
+    full = build_site(records, AS_OF, tmp_path / "full")
+    assert_same_tree(site, full)
+    sitemap = (site / "sitemap.xml").read_text()
+    for unit in units:  # (a unit page's address, as MkDocs gives it with directory URLs)
+        assert f"<loc>https://alarms.example.org/records/properties/{unit.uid}/</loc>" in sitemap
+    assert gzip.decompress((site / "sitemap.xml.gz").read_bytes()).decode() == sitemap
+    search = json.loads((site / "search" / "search_index.json").read_text())
+    located = {doc["location"].split("#")[0] for doc in search["docs"]}
+    assert {f"properties/{unit.uid}/" for unit in units} <= located
