@@ -25,13 +25,16 @@ from mkdocs.utils import get_build_date
 
 from . import progress
 from .cautions import SHORT
+from .checks import evaluate
 from .findings_cache import cached_evaluate
 from .loader import load_records
+from .quickbuild import Update, inputs_now, plan_update, whole_record
 from .serving import ServeLog, watch_records
 from .recordfiles import SITE_CONFIGS
 from .render.compiled import keep_compiled
 from .render.labels import ASSETS, DEFAULT_SITE_CONFIG
-from .render.site import Page, part_marker, site_pages
+from .render.portfolio_pages import CALENDAR, NAV_PROPERTIES
+from .render.site import Page, SiteBuilder, part_marker
 from .hashes import digest
 from .render_cache import RenderIndex, dest_of, read_index
 from .rules import Interval, Rule
@@ -111,9 +114,9 @@ class LeftOut:
 
     inclusion = InclusionLevel.NOT_IN_NAV
 
-    def __init__(self, page: Page, kept: dict, dest_uri: str, position: int, update_date: str):
-        self.src_uri, self.dest_uri, self.kept, self.position = page.src_uri, dest_uri, kept, position
-        self.documentation = page.src_uri.endswith(".md")
+    def __init__(self, src_uri: str, kept: dict, dest_uri: str, position: int, update_date: str):
+        self.src_uri, self.dest_uri, self.kept, self.position = src_uri, dest_uri, kept, position
+        self.documentation = src_uri.endswith(".md")
         self.page = types.SimpleNamespace(is_link=False, canonical_url=kept.get("canonical_url"),
                                           abs_url=kept.get("abs_url"), update_date=update_date) \
             if self.documentation else None
@@ -143,6 +146,13 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         self.made_files: list[MadeFile] = []
         self.left_out: list[LeftOut] = []  # kept pages MkDocs is not shown (see on_files)
         self.env = self.nav = None
+        self.as_of = date.min
+        self.old_index: dict | None = None  # what the last build into the site folder left
+        self.update: Update | None = None  # when only some properties are loaded (see quickbuild)
+        self.builder: SiteBuilder | None = None
+        self.inputs: dict | None = None  # each property's files as one hash, for the next build
+        self.frame = ""
+        self.groups: dict[str, list[str]] = {}
         self.search_entries: dict[str, list] = {}  # this build's search entries of each page it made
         self.indexed = 0
         self.nav_names: list = []
@@ -159,34 +169,16 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         else:
             base_dir = Path(config.config_file_path or ".").resolve().parent
             self.records_dir = _shown(base_dir / self.config.records)
-        as_of = self._as_of()
-        loaded = load_records(self.records_dir, as_of, today=date.today())  # a face: may read the clock
-        if loaded.problems:
-            lines = "\n".join(str(p) for p in loaded.problems)
-            raise PluginError(f"recordkit: {len(loaded.problems)} problem(s) in the records:\n{lines}")
-        if not loaded.portfolio.properties:
-            raise PluginError(f"recordkit: {self.records_dir}: no property records here yet; start with "
-                              f"`recordkit init -r {self.records_dir}`")
-        policy = loaded.policy
-        for task, days in self.config.due_soon_days.items():
-            name = f"due_soon_{task}"
-            try:
-                rule = policy[name]
-            except KeyError:
-                raise PluginError(f"recordkit: due_soon_days: unknown task {task!r} "
-                                  "(replace, test, battery)") from None
-            if not isinstance(days, int) or isinstance(days, bool) or days < 0:
-                raise PluginError(f"recordkit: due_soon_days.{task} must be a whole number of days")
-            policy = policy.with_override(Rule(name, rule.title, Interval(days, "days"),
-                                               f"{config.config_file_path}: plugins.recordkit.due_soon_days",
-                                               local=True))
-        loaded.policy = policy
-        findings = cached_evaluate(loaded, policy, as_of)
-        self.pages = {page.src_uri: page for page in site_pages(loaded, findings, as_of, config.use_directory_urls,
-                                                                 config.site_url)}
-        self.nav_names = [(p.id, p.name) for p in loaded.portfolio.properties]
-        log.info("recordkit: %d devices, %d tasks as of %s", len(loaded.portfolio.devices), len(findings), as_of)
-
+        self.as_of = as_of = self._as_of()
+        site_dir = Path(config.site_dir)
+        folder = str(site_dir.resolve())
+        # `build_site` read the last index already to decide whether to keep pages: not read twice
+        self.old_index = self.last_index.pop(folder) if folder in self.last_index \
+            else read_index(self.records_dir, site_dir)
+        update = plan_update(self.records_dir, (self.old_index or {}).get("whole"), as_of, date.today()) \
+            if self.old_index else None
+        if update is None or not self._prepare(config, update.loaded, update):
+            self._prepare(config, load_records(self.records_dir, as_of, today=date.today()))  # a face: the clock
         for name in NEEDED_EXTENSIONS:
             if name not in config.markdown_extensions:
                 config.markdown_extensions.append(name)
@@ -199,6 +191,47 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         if SHORT not in (config.copyright or ""):
             config.copyright = f"{config.copyright} · {SHORT}" if config.copyright else SHORT
         return config
+
+    def _prepare(self, config: MkDocsConfig, loaded, update: Update | None = None) -> bool:
+        """The pages from these records; with `update`, only the changed properties' (see quickbuild),
+        False (nothing set) when the last build's kept parts do not fit this build."""
+        if loaded.problems:
+            lines = "\n".join(str(p) for p in loaded.problems)
+            raise PluginError(f"recordkit: {len(loaded.problems)} problem(s) in the records:\n{lines}")
+        if not loaded.portfolio.properties and update is None:
+            raise PluginError(f"recordkit: {self.records_dir}: no property records here yet; start with "
+                              f"`recordkit init -r {self.records_dir}`")
+        loaded.policy = policy = self._policy(config, loaded.policy)
+        findings = evaluate(loaded.portfolio, policy, self.as_of) if update else \
+            cached_evaluate(loaded, policy, self.as_of)
+        builder = SiteBuilder(loaded, findings, self.as_of, config.use_directory_urls, config.site_url,
+                              update.others if update else None, update.order if update else None)
+        if update and (builder.keys.site != self.old_index["whole"]["site"] or not builder.complete()):
+            return False
+        self.update, self.builder = update, builder
+        self.inputs = {"inputs": update.inputs, "order": update.order} if update \
+            else inputs_now(self.records_dir, max(date.today(), self.as_of))
+        self.pages = {page.src_uri: page for page in builder.pages()}
+        self.nav_names = [(line.id, line.name) for line in builder.totals.lines]
+        log.info("recordkit: %d properties made again of %d, %d tasks as of %s", len(builder.own),
+                 len(builder.order), len(findings), self.as_of)
+        return True
+
+    def _policy(self, config: MkDocsConfig, policy):
+        """The policy with the plugin's own `due_soon_days` settings over it."""
+        for task, days in self.config.due_soon_days.items():
+            name = f"due_soon_{task}"
+            try:
+                rule = policy[name]
+            except KeyError:
+                raise PluginError(f"recordkit: due_soon_days: unknown task {task!r} "
+                                  "(replace, test, battery)") from None
+            if not isinstance(days, int) or isinstance(days, bool) or days < 0:
+                raise PluginError(f"recordkit: due_soon_days.{task} must be a whole number of days")
+            policy = policy.with_override(Rule(name, rule.title, Interval(days, "days"),
+                                               f"{config.config_file_path}: plugins.recordkit.due_soon_days",
+                                               local=True))
+        return policy
 
     def page_text(self, src_uri: str) -> str:
         """A generated page's text as MkDocs reads it (for checks and tests)."""
@@ -215,14 +248,14 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
 
     def on_files(self, files: Files, /, *, config: MkDocsConfig) -> Files:
         own = [f for f in files if f.generated_by is None]  # the hand-written pages, before ours join
-        if self.records_dir:
-            site_dir = Path(config.site_dir)
-            folder = str(site_dir.resolve())
-            # `build_site` read the last index already to decide whether to keep pages: not read twice
-            old = self.last_index.pop(folder) if folder in self.last_index else read_index(self.records_dir, site_dir)
-            self.index = RenderIndex(self.records_dir, site_dir, self._frame(config, own), old)
-        else:
-            self.index = None
+        self.frame = self._frame(config, own)
+        self.index = RenderIndex(self.records_dir, Path(config.site_dir), self.frame, self.old_index) \
+            if self.records_dir else None
+        sequence = self._sequence(config)
+        if sequence is None:  # the last build's kept pages do not fit this one: everything loaded after all
+            self._prepare(config, load_records(self.records_dir, self.as_of, today=date.today()))
+            self.index = RenderIndex(self.records_dir, Path(config.site_dir), self.frame, self.old_index)
+            sequence = self._sequence(config)
         self.made_files, self.left_out = [], []
         self.search_entries = {}
         self.indexed = 0
@@ -231,21 +264,28 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         dests: dict[str, str] = {}
         changed_units: set[str] = set()
         update_date = get_build_date()  # (what MkDocs gives every page it makes)
-        for page in self.pages.values():
+        taken = set(files.src_uris)
+        for page, entry in sequence:
             parts = page.src_uri.split("/")
             if page.src_uri.startswith("/") or any(part in ("", ".", "..") for part in parts):
                 raise PluginError(f"recordkit: refused a page path outside the site: {page.src_uri!r}")
-            if files.get_file_from_path(page.src_uri):
+            if page.src_uri in taken:
                 raise PluginError(f"recordkit: {page.src_uri} is generated from the records; "
                                   f"remove the hand-written file of that name from {config.docs_dir}")
             dests[page.src_uri] = dest = dest_of(page.src_uri, directory_urls)
-            kept[page.src_uri] = entry = self.index.kept_entry(page.src_uri, page.key, dest) if self.index else None
+            if entry is None and self.index is not None:
+                entry = self.index.kept_entry(page.src_uri, page.key, dest)
+            kept[page.src_uri] = entry
             if entry is None and page.unit is not None:
                 changed_units.add(page.unit)
-        for position, page in enumerate(self.pages.values()):
+        self.groups = {}  # each property's pages, for the next build (see quickbuild)
+        for page, _ in sequence:
+            if page.owner is not None:
+                self.groups.setdefault(page.owner, []).append(page.src_uri)
+        for position, (page, _) in enumerate(sequence):
             entry = kept[page.src_uri]
             if entry is not None and page.unit is not None and page.unit not in changed_units:
-                self.left_out.append(LeftOut(page, entry, dests[page.src_uri], position, update_date))
+                self.left_out.append(LeftOut(page.src_uri, entry, dests[page.src_uri], position, update_date))
                 continue
             inclusion = InclusionLevel.UNDEFINED if page.in_nav and not page.static else InclusionLevel.NOT_IN_NAV
             made = MadeFile.of(config, page, inclusion, self.index, entry, position)
@@ -264,6 +304,39 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
             files.append(File.generated(config, asset, abs_src_path=str(ASSETS / Path(asset).name)))
         self.files = files
         return files
+
+    def _sequence(self, config: MkDocsConfig) -> list[tuple[Page, dict | None]] | None:
+        """Every generated page in the order of a full build, each with the last build's entry when it is
+        kept as it is: the pages this build made, and (after `quickbuild`) the pages of the properties not
+        loaded, taken as the last build left them; None when one of those is not as written, or the frame
+        or the calendar changed."""
+        update, index = self.update, self.index
+        if update is None:
+            return [(page, None) for page in self.pages.values()]
+        whole = self.old_index["whole"]
+        calendar = index.pieces_of(CALENDAR, os.path.join(config.site_dir, CALENDAR))
+        needed = {name for name in index.old_pieces.get(CALENDAR, {}).get("at", {})
+                  if name.split("/", 1)[0] in update.others}
+        if whole["frame"] != self.frame or not needed <= set(calendar):
+            return None
+        by_owner: dict[str | None, list[Page]] = {}
+        for page in self.pages.values():
+            by_owner.setdefault(page.owner, []).append(page)
+        sequence: list[tuple[Page, dict | None]] = [(page, None) for page in by_owner.pop(None, [])]
+        many = len(update.order) > NAV_PROPERTIES
+        for pid in update.order:
+            if pid not in update.others:
+                sequence += [(page, None) for page in by_owner.get(pid, [])]
+                continue
+            for uri in update.groups[pid]:
+                entry = index.carry(uri, dest_of(uri, config.use_directory_urls))
+                if entry is None:
+                    return None
+                is_page = uri.endswith(".md")
+                sequence.append((Page(uri, _kept_only, in_nav=is_page and not many and uri == f"properties/{pid}.md",
+                                      static=not is_page, unit=None if uri.count("/") < 2 else f"{pid}/(kept)",
+                                      owner=pid), entry))
+        return sequence
 
     def _frame(self, config: MkDocsConfig, own: list[File]) -> str:
         """What every page's frame is made of: the settings, the theme and its templates, the navigation
@@ -341,7 +414,10 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
                 _build_theme_template("sitemap.xml", self.env, Files(pages), config, self.nav)
             outputs = {f.dest_uri for f in files} | {f.dest_uri for f in self.left_out}
             index.remove_stale(outputs)
-            index.save(outputs)
+            builder = self.builder
+            whole = whole_record(self.inputs, self.as_of, builder.keys.site, self.frame, builder.summaries(),
+                                 self.groups) if self.inputs and builder.keys.site else None
+            index.save(outputs, whole)
             self.summary = f"{index.made} page(s) made, {index.kept} kept as they were"
             log.info("recordkit: built in %.1f s: %s", time.perf_counter() - self.started, self.summary)
         self.bar.close()
@@ -364,7 +440,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         """Let the records go: `mkdocs serve` loads them afresh on the next build."""
         self.pages = {}
         self.made_files, self.left_out = [], []
-        self.files = self.env = self.nav = None
+        self.files = self.env = self.nav = self.builder = self.update = self.old_index = None
 
     def on_build_error(self, *, error: Exception) -> None:
         self.bar.close()
@@ -374,6 +450,10 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         if self.records_dir:
             watch_records(server, self.records_dir)
         return server
+
+
+def _kept_only() -> str:
+    raise AssertionError("a kept page is never made")  # (its file is as the last build wrote it)
 
 
 def _search_index(config: MkDocsConfig):

@@ -20,6 +20,7 @@ from typing import Any
 from . import csvlog
 from . import model as m
 from .cache import RACY_SECONDS, ParseCache
+from .hashes import digest
 from .errors import Problems
 from .loader import Digests, Loaded, _Builder
 from .recordfiles import CSV_SUFFIX, POLICY_FILE, record_files
@@ -39,6 +40,9 @@ def save_manifest(cache: ParseCache, fileset: str, digests: dict[str, str], stat
     event_files: dict[str, set[str]] = {}
     for device, held in hashes.events.items():
         event_files.setdefault(device.split("/", 1)[0], set()).update(h.rsplit(":", 1)[0] for h in held)
+    evidence: dict[str, set[str]] = {}
+    for device, refs in hashes.evidence.items():
+        evidence.setdefault(device.split("/", 1)[0], set()).update(refs)
     cache.put_note(KIND, "records", {
         "format": FORMAT, "fileset": fileset,
         "files": {name: [stats[name].st_size, stats[name].st_mtime_ns, digest,
@@ -46,15 +50,38 @@ def save_manifest(cache: ParseCache, fileset: str, digests: dict[str, str], stat
         "properties": {p.id: inside_of[p.source.path] for p in portfolio.properties},
         "event_files": {pid: sorted(files) for pid, files in event_files.items()},
         "heard": {p.id: sorted(heard) for p in portfolio.properties if (heard := portfolio.heard(p))},
-        "outline": outline_of(portfolio.properties)})
+        "outline": outline_of(portfolio.properties),
+        "evidence": {pid: sorted(refs) for pid, refs in evidence.items()}})
 
 
-def quick_load(root: Path, property_ids: set[str], as_of: date, today: date | None = None) -> Loaded | None:
+def file_keys(manifest: dict, root: Path | None = None) -> dict[str, str]:
+    """Each property's record files as one hash: the file holding it and those holding its devices'
+    events, by content. A property whose hash is unchanged has the same records and events. With `root`,
+    also the recordings its events keep, by size and time (a page shows what each holds)."""
+    files, evidence = manifest["files"], manifest.get("evidence", {}) if root is not None else {}
+    return {pid: digest([pid, files[name][2], [[f, files[f][2]] for f in manifest["event_files"].get(pid, [])],
+                         [_recording(root, ref) for ref in evidence.get(pid, [])]])
+            for pid, name in manifest["properties"].items()}
+
+
+def _recording(root: Path | None, reference: str) -> list:
+    from .evidence import evidence_path
+
+    try:
+        info = os.stat(evidence_path(root, reference))
+        return [reference, info.st_size, info.st_mtime_ns]
+    except OSError:
+        return [reference, None]
+
+
+def quick_load(root: Path, property_ids: set[str], as_of: date, today: date | None = None,
+               with_digests: bool = False) -> Loaded | None:
     """Just these properties (and those their nodes hear), with their devices' events; None when the
-    records are not exactly as the last clean load left them, or a property is unknown."""
+    records are not exactly as the last clean load left them, or a property is unknown. `with_digests`:
+    with the parse cache's hashes of what was loaded (`loader.Digests`), as a whole load gives them."""
     cache = ParseCache(root)
     try:
-        return _quick(root, cache, property_ids, as_of, max(today or as_of, as_of))
+        return _quick(root, cache, property_ids, as_of, max(today or as_of, as_of), with_digests)
     except (OSError, UnsafeFile, KeyError, TypeError, ValueError, AttributeError):
         return None
 
@@ -84,7 +111,8 @@ def current_manifest(root: Path, cache: ParseCache, today: date) -> tuple[dict, 
     return manifest, named, newest
 
 
-def _quick(root: Path, cache: ParseCache, property_ids: set[str], as_of: date, today: date) -> Loaded | None:
+def _quick(root: Path, cache: ParseCache, property_ids: set[str], as_of: date, today: date,
+           with_digests: bool = False) -> Loaded | None:
     current = current_manifest(root, cache, today)
     if current is None:
         return None
@@ -97,6 +125,7 @@ def _quick(root: Path, cache: ParseCache, property_ids: set[str], as_of: date, t
     needed = {manifest["properties"][pid] for pid in wanted}
     needed |= {name for pid in wanted for name in manifest["event_files"].get(pid, [])}
     builder, policy = _Builder(problems), Policy()
+    hashes = Digests() if with_digests else None
     for name, path in named.items():  # in the loader's order, so events keep their order
         shown = str(path)
         if path.parent == root and path.name == POLICY_FILE:
@@ -105,7 +134,7 @@ def _quick(root: Path, cache: ParseCache, property_ids: set[str], as_of: date, t
         elif name in needed:
             limit = csvlog.MAX_CSV_BYTES if path.suffix == CSV_SUFFIX else MAX_FILE_BYTES
             payload = cache.get(path, name, limit)[0]
-            if payload is None or not builder.add_cached(payload, shown):
+            if payload is None or not builder.add_cached(payload, shown, hashes, name):
                 return None
     if problems:
         return None
@@ -114,7 +143,7 @@ def _quick(root: Path, cache: ParseCache, property_ids: set[str], as_of: date, t
     if as_of < today and any(e.date > as_of for e in events):  # a past view, as the loader gives it
         portfolio = m.Portfolio(portfolio.properties, tuple(e for e in events if e.date <= as_of))
     last = datetime.fromtimestamp(newest, timezone.utc) if newest else None
-    return Loaded(str(root), portfolio, policy, [], [str(p) for p in named.values()], last, None, partial=True)
+    return Loaded(str(root), portfolio, policy, [], [str(p) for p in named.values()], last, hashes, partial=True)
 
 
 def refresh_after_append(root: Path, paths: list[Path], appended: list) -> bool:
@@ -162,6 +191,10 @@ def _refresh(root: Path, cache: ParseCache, paths: list[Path], appended: list) -
         newest = max([newest, *(e.date for e in builder.events)])
         for pid in {e.device.split("/", 1)[0] for e in builder.events}:
             manifest["event_files"][pid] = sorted({*manifest["event_files"].get(pid, []), name})
+        for event in builder.events:
+            if event.evidence:
+                pid = event.device.split("/", 1)[0]
+                manifest.setdefault("evidence", {})[pid] = sorted({*manifest["evidence"].get(pid, []), event.evidence})
     if sorted(added) != appended:
         return False  # (the cache entries written above are checked by content on their next use)
     digests = {name: entry[2] for name, entry in files.items()}

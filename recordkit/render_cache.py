@@ -18,7 +18,7 @@ from .cache import ParseCache
 from .hashes import joined_digest
 
 KIND = "render-index"
-FORMAT = 2  # 2: each page's address for the sitemap
+FORMAT = 3  # 2: each page's address for the sitemap; 3: what a build of a few properties needs (quickbuild)
 
 
 def dest_of(uri: str, directory_urls: bool) -> str:
@@ -61,7 +61,7 @@ class RenderIndex:
         if key is None or not isinstance(entry, dict) or entry.get("key") != self.full_key(key):
             return None
         try:
-            stat = os.stat(os.path.join(self.site_dir, dest_uri))
+            stat = os.stat(f"{self.site_dir}/{dest_uri}")
         except OSError:
             return None
         if (stat.st_size, stat.st_mtime_ns) != (entry.get("size"), entry.get("mtime_ns")):
@@ -126,7 +126,22 @@ class RenderIndex:
                 removed += 1
         return removed
 
-    def save(self, outputs: set[str]) -> None:
+    def carry(self, uri: str, dest_uri: str) -> dict | None:
+        """The last build's entry for a page this build does not make at all (see quickbuild), when its
+        file is as written."""
+        entry = self.old.get(uri)
+        try:
+            stat = os.stat(f"{self.site_dir}/{dest_uri}")
+        except OSError:
+            return None
+        if not isinstance(entry, dict) or (stat.st_size, stat.st_mtime_ns) != (entry.get("size"), entry.get("mtime_ns")):
+            return None
+        self.pages[uri] = entry
+        self.kept += 1
+        return entry
+
+    def save(self, outputs: set[str], whole: dict | None = None) -> None:
+        """`whole`: what the next build needs to load only the properties that changed (see quickbuild)."""
         self.cache.put_note(KIND, str(self.site_dir),
                             {"format": FORMAT, "pages": self.pages, "outputs": sorted(outputs),
-                             "pieces": self.pieces})
+                             "pieces": self.pieces, "whole": whole})

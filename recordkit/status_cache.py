@@ -21,7 +21,7 @@ from .cache import ParseCache
 from .checks import Finding, evaluate
 from .findings_cache import decode, encode
 from .hashes import code_digest, digest
-from .quickload import current_manifest, quick_load
+from .quickload import current_manifest, file_keys, quick_load
 from .recordfiles import POLICY_FILE
 from .schedule import State
 
@@ -67,11 +67,8 @@ def _keys(manifest: dict, root: Path, as_of: date) -> dict[str, str]:
     files = manifest["files"]
     policy = files.get(POLICY_FILE, [None, None, None])[2]
     base = digest([code_digest(), FORMAT, policy, as_of, str(root)])
-
-    def own(pid: str) -> list:
-        return [pid, files[manifest["properties"][pid]][2],
-                [[name, files[name][2]] for name in manifest["event_files"].get(pid, [])]]
-    return {pid: digest([base, [own(p) for p in [pid, *manifest["heard"].get(pid, [])]]])
+    own = file_keys(manifest)
+    return {pid: digest([base, [own[p] for p in [pid, *manifest["heard"].get(pid, [])]]])
             for pid in manifest["outline"]}
 
 

@@ -241,3 +241,25 @@ def test_units_left_out_of_mkdocs_keep_their_sitemap_lines_and_search_entries(tm
     search = json.loads((site / "search" / "search_index.json").read_text())
     located = {doc["location"].split("#")[0] for doc in search["docs"]}
     assert {f"properties/{unit.uid}/" for unit in units} <= located
+
+
+def test_after_a_logged_test_only_that_property_is_read(tmp_path, monkeypatch):
+    """The build after `log` loads the one property whose files changed (quickbuild), makes the pages
+    about the whole portfolio from the others' kept summaries, and writes what a full build writes."""
+    from recordkit import mkdocs_plugin
+
+    records, site = tmp_path / "records", tmp_path / "site"
+    generate(records, 150, 1, as_of=AS_OF)
+    build_site(records, AS_OF, site)
+    loaded = load_records(records, AS_OF)
+    props = loaded.portfolio.properties
+    assert len(props) >= 4
+    device = next(d.uid for u in props[2].units for d in u.devices)
+    for day, result in (("2026-11-20", "fail"), ("2026-11-21", "pass")):
+        cli(records, "log", device, "test", "--result", result, "--date", day, "--again")
+        with monkeypatch.context() as patch:
+            def refused(*args, **kwargs):
+                raise AssertionError("a whole load")
+            patch.setattr(mkdocs_plugin, "load_records", refused)
+            build_site(records, AS_OF, site)
+        assert_same_tree(site, build_site(records, AS_OF, tmp_path / f"full-{day}"))

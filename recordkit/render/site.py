@@ -9,11 +9,10 @@ import functools
 import html
 import json
 import posixpath
-import collections
 from collections import Counter
 from dataclasses import dataclass
 from typing import Callable, Iterator
-from datetime import date, timedelta
+from datetime import date
 from pathlib import Path
 
 import jinja2
@@ -21,12 +20,10 @@ from markupsafe import Markup
 
 from .. import model as m
 from ..cautions import CAUTIONS, SHORT
-from ..checks import TASK_ORDER, Finding, urgency
-from ..exports import calendar_text
+from ..checks import Finding, urgency
 from ..loader import Loaded
 from ..nodes import NodeReport, node_report
-from .charts import (envelope_svg, forecast_svg, monthly_grid_svg, position_cells, replacement_forecast,
-                     yearly_costs)
+from .charts import envelope_svg, monthly_grid_svg, position_cells
 from ..schema import record_schema
 from ..rules import coverage_set_names
 from ..schedule import State
@@ -36,17 +33,12 @@ from .checklist import (UnitSheet, blank_unit_html, findings_by_device, inspecti
 from .device_labels import device_address, grid, label_rows, labels_html
 from .escape import md_text
 from .page_keys import PageKeys
+from .portfolio_pages import CALENDAR, NAV_PROPERTIES, PROPERTIES_INDEX, PortfolioPages
 from .labels import STATE_LABELS, TASK_LABELS, TEMPLATES, kind_label, room_notes
 
-UPCOMING_DAYS = 90
-# At a managing agent's scale the overview lists counts per property instead of every task,
-# and properties leave the navigation for an index page (Material renders the nav into every page).
-OVERVIEW_ROWS = 150
-NAV_PROPERTIES = 40
 # A QR code takes about 3 ms to make: past this many units the site leaves the label sheets to
 # `recordkit labels`, which the unit page then names.
 LABEL_SHEETS_UP_TO = 400
-PROPERTIES_INDEX = "properties.md"
 
 
 @dataclass(frozen=True)
@@ -68,6 +60,7 @@ class Page:
     # The unit a unit's page or sheet belongs to: its Markdown links only to the unit's other pages and to
     # pages not of a unit, so a build may leave a unit whose every page is kept out of MkDocs' view.
     unit: str | None = None
+    owner: str | None = None  # the property a property's or unit's page or sheet belongs to
 
 
 def part_marker(name: str) -> str:
@@ -91,7 +84,6 @@ def labels_uri(prop: m.Property, unit: m.Unit) -> str:
 
 
 NEW_UNIT_SHEET = "checklists/new-unit.html"
-CALENDAR = "due.ics"
 SCHEMA = "records.schema.json"
 
 
@@ -183,9 +175,11 @@ class DeviceViews(dict):
         return self[uid] if uid in self.portfolio.devices else default
 
 
-class SiteBuilder:
+class SiteBuilder(PortfolioPages):
     def __init__(self, loaded: Loaded, findings: list[Finding], as_of: date, directory_urls: bool = False,
-                 site_url: str | None = None):
+                 site_url: str | None = None, others: dict[str, dict] | None = None, order: list[str] | None = None):
+        """`others`: the summaries of the properties not in `loaded` (see quickbuild), by id; `order`: every
+        property's id in order, when some are not loaded."""
         self.loaded = loaded
         self.site_url = site_url
         self.directory_urls = directory_urls
@@ -198,8 +192,12 @@ class SiteBuilder:
         self.findings = findings
         self.rule_titles = {rule.name: rule.title for rule in loaded.policy}
         self.by_device = by_device = findings_by_device(findings)
+        self.others = others or {}
+        self.order = order or [p.id for p in self.portfolio.properties]
+        self.own = [p for p in self.portfolio.properties if p.id not in self.others]
         self.units = {u.uid: (p, u) for p in self.portfolio.properties for u in p.units}
-        self.label_sheets = len(self.units) <= LABEL_SHEETS_UP_TO
+        all_units = sum(len(p.units) for p in self.own) + sum(s["units"] for s in self.others.values())
+        self.label_sheets = all_units <= LABEL_SHEETS_UP_TO
         self.keys = PageKeys(loaded.digests, self.portfolio, loaded.policy, by_device, as_of,
                              (directory_urls, site_url, self.label_sheets, str(Path(loaded.root).resolve())),
                              Path(loaded.root))
@@ -274,36 +272,31 @@ class SiteBuilder:
         yield Page(NEW_UNIT_SHEET, blank_unit_html, static=True)
         yield Page(CALENDAR, lambda: self.calendar({})[0], static=True, pieces=self.calendar)
         yield Page(SCHEMA, lambda: json.dumps(record_schema(), indent=2) + "\n", static=True)
-        many = len(self.portfolio.properties) > NAV_PROPERTIES
+        many = len(self.order) > NAV_PROPERTIES
         if many:
-            yield Page(PROPERTIES_INDEX, lambda: self._render("properties.md.j2", PROPERTIES_INDEX,
-                                                              rows=self._property_rows()))
+            yield Page(PROPERTIES_INDEX, self.properties_index)
         keys = self.keys
-        for prop in self.portfolio.properties:
+        for prop in self.own:
             uri = property_uri(prop)
             yield Page(uri, functools.partial(self.property_page, prop), in_nav=not many,
-                       parts=functools.partial(self.property_parts, prop), key=keys.property_page(prop, uri))
+                       parts=functools.partial(self.property_parts, prop), key=keys.property_page(prop, uri),
+                       owner=prop.id)
             uri = checklist_uri(prop)
             yield Page(uri, functools.partial(self.inspection_sheets, prop), static=True,
-                       key=keys.property_page(prop, uri))
+                       key=keys.property_page(prop, uri), owner=prop.id)
             for unit in prop.units:
                 uri = unit_uri(prop, unit)
                 yield Page(uri, functools.partial(self.unit_page, prop, unit), in_nav=False,
                            parts=functools.partial(self.unit_parts, prop, unit), key=keys.unit_page(prop, unit, uri),
-                           unit=unit.uid)
+                           unit=unit.uid, owner=prop.id)
                 sheets = [(checklist_uri(prop, unit), functools.partial(self.inspection_sheets, prop, unit)),
                           (checklist_uri(prop, unit, monthly=True), functools.partial(self.monthly_card, prop, unit)),
                           (walkround_uri(prop, unit), functools.partial(self.walkround, prop, unit))]
                 if self.label_sheets:
                     sheets.append((labels_uri(prop, unit), functools.partial(self.labels, prop, unit)))
                 for uri, make in sheets:
-                    yield Page(uri, make, static=True, key=keys.unit_page(prop, unit, uri), unit=unit.uid)
-
-    def calendar(self, kept: dict[str, tuple[str, str]]) -> tuple[str, dict[str, tuple[str, str]]]:
-        """The calendar file, each unit's tasks a piece kept from the last build while its key holds."""
-        keys = {unit.uid: key for prop in self.portfolio.properties for unit in prop.units
-                if (key := self.keys.unit_page(prop, unit, CALENDAR)) is not None}
-        return calendar_text(self.portfolio, self.findings, self.as_of, keys, kept)
+                    yield Page(uri, make, static=True, key=keys.unit_page(prop, unit, uri), unit=unit.uid,
+                               owner=prop.id)
 
     def inspection_sheets(self, prop: m.Property, unit: m.Unit | None = None) -> str:
         units = prop.units if unit is None else [unit]
@@ -348,7 +341,8 @@ class SiteBuilder:
                                                     functools.partial(self._device_href, here),
                                                     lambda f: when(f, self.as_of))}
 
-    def _work_list(self, findings: list[Finding], here: str, props, when_label: str = "Since") -> str:
+    def _work_list(self, findings: list[Finding], here: str, props, when_label: str = "Since",
+                   several: bool | None = None) -> str:
         """Findings as a work list grouped by property (when several may be listed) and unit."""
         by_unit: dict[str, list[Finding]] = {}
         for finding in findings:
@@ -358,7 +352,7 @@ class SiteBuilder:
                                 if u.uid in by_unit])]
         if not groups:
             return ""
-        several = len(props) > 1
+        several = len(props) > 1 if several is None else several
         return self._parts.work_list(
             groups, functools.partial(self._html_what, here), self._room_of, lambda f: when(f, self.as_of),
             functools.partial(self._rule_link, here), when_label,
@@ -399,68 +393,11 @@ class SiteBuilder:
         return ('<div class="rk-evidence"><p><b>Recorded evidence</b> (a recording shows the horn sounds; it '
                 'does not prove the sensor sees smoke)</p><ul>' + "".join(rows) + "</ul></div>")
 
-    def _property_rows(self) -> list[dict]:
-        """Per property: devices in service, overdue and due-soon tasks (for large portfolios)."""
-        counts = collections.defaultdict(Counter)  # (not setdefault: a Counter a finding is slow)
-        for finding in self.findings:
-            counts[finding.unit.split("/", 1)[0]][finding.state] += 1
-        return [{"prop": p, "devices": sum(len(u.devices) for u in p.units), "units": len(p.units),
-                 "overdue": counts.get(p.id, Counter())[State.OVERDUE],
-                 "due_soon": counts.get(p.id, Counter())[State.DUE_SOON]} for p in self.portfolio.properties]
-
     def _active(self, units) -> list[DeviceView]:
         return [self.views[d.uid] for u in units for d in u.devices if not self._retired(self.views[d.uid])]
 
     def _retired(self, view: DeviceView) -> bool:
         return view.retired is not None and view.retired <= self.as_of
-
-    @functools.cached_property
-    def _work(self) -> tuple[list[Finding], list[Finding]]:
-        """The overview's work: overdue tasks, and tasks due in the next UPCOMING_DAYS days."""
-        overdue = sorted((f for f in self.findings if f.state is State.OVERDUE),
-                         key=lambda f: (f.due or date.min, f.device))
-        horizon = self.as_of + timedelta(days=UPCOMING_DAYS)
-        upcoming = sorted((f for f in self.findings
-                           if f.state is not State.OVERDUE and f.due and f.due <= horizon),
-                          key=lambda f: (f.due, f.device, TASK_ORDER[f.task]))
-        return overdue, upcoming
-
-    @functools.cached_property
-    def _device_counts(self) -> tuple[dict[m.Kind, Counter], Counter]:
-        """Devices in service by kind and state, and by state alone (for the overview and its parts)."""
-        by_kind: dict[m.Kind, Counter] = {}
-        for uid, located in self.portfolio.devices.items():  # (not through the views: no histories needed)
-            retired = self.portfolio.retired_on(uid)
-            if retired is None or retired > self.as_of:
-                kind = located.device.kind
-                (by_kind.get(kind) or by_kind.setdefault(kind, Counter()))[worst_state(self.by_device.get(uid, []))] += 1
-        return by_kind, sum(by_kind.values(), Counter())
-
-    def overview(self) -> str:
-        overdue, upcoming = self._work
-        totals = self._device_counts[1]
-        policy = self.loaded.policy
-        quarters = replacement_forecast(self.findings, self.portfolio, self.as_of, policy.costs)
-        content = self._render(
-            "overview.md.j2", "index.md",
-            forecast=Markup(forecast_svg(quarters)), yearly=yearly_costs(quarters),
-            costs=policy.costs, currency=policy.currency,
-            totals=totals, overdue=overdue, upcoming=upcoming, upcoming_days=UPCOMING_DAYS,
-            last_changed=self.loaded.last_changed, files=len(self.loaded.files),
-            properties=self.portfolio.properties, row_limit=OVERVIEW_ROWS, property_rows=self._property_rows(),
-            properties_index=PROPERTIES_INDEX if len(self.portfolio.properties) > NAV_PROPERTIES else None)
-        return content
-
-    def overview_parts(self) -> dict[str, str]:
-        overdue, upcoming = self._work
-        by_kind, totals = self._device_counts
-        rows = [(kind_label(k), sum(by_kind[k].values()), by_kind[k]) for k in m.Kind if k in by_kind]
-        rows.append((Markup("<b>All</b>"), sum(totals.values()), totals))
-        props = self.portfolio.properties
-        return {"kinds": self._parts.counts_table("Kind", "Devices", rows),
-                "overdue": self._work_list(overdue, "index.md", props) if len(overdue) <= OVERVIEW_ROWS else "",
-                "upcoming": self._work_list(upcoming, "index.md", props, "Due") if len(upcoming) <= OVERVIEW_ROWS
-                else ""}
 
     def _unit_views(self, unit: m.Unit) -> tuple[list[DeviceView], list[DeviceView]]:
         """The unit's devices in service and retired ones."""
@@ -502,14 +439,6 @@ class SiteBuilder:
         policy = self.loaded.policy
         return self._render("rules.md.j2", "rules.md", rules=list(policy), rule_set=policy.coverage,
                             rule_set_title=policy.rule_set.title, rule_set_names=coverage_set_names())
-
-    def keeping_records(self) -> str:
-        """How to keep these records, with examples from the user's own ids (not the demo's)."""
-        located = next(iter(self.portfolio.devices.values()), None)
-        unit = located.unit.uid if located else next(
-            (u.uid for p in self.portfolio.properties for u in p.units), "PROPERTY/UNIT")
-        return self._render("keeping_records.md.j2", "keeping-records.md", folder=self.folder,
-                            device=located.device.uid if located else f"{unit}/DEVICE", unit=unit)
 
     def about(self) -> str:
         policy = self.loaded.policy
