@@ -220,6 +220,23 @@ class Property:
     units: tuple[Unit, ...] = ()
 
 
+@dataclass(frozen=True)
+class UnitLine:
+    uid: str
+    id: str
+    name: str
+
+
+@dataclass(frozen=True)
+class PropertyLine:
+    """A property by its names alone (and its units'), where a report or page about the whole portfolio
+    needs no more of a property it has not loaded."""
+    id: str
+    name: str
+    address: str
+    units: tuple[UnitLine, ...] = ()
+
+
 class Event(NamedTuple):
     """One thing done to a device. A tuple, not a dataclass: a long history holds millions of events,
     and a tuple is built in C (the warm load makes them from cached columns without a Python call each)."""

@@ -18,6 +18,7 @@ from datetime import date
 from pathlib import Path
 
 from .cache import ParseCache
+from .model import PropertyLine, UnitLine
 from .checks import Finding, evaluate
 from .findings_cache import decode, encode
 from .hashes import code_digest, digest
@@ -28,21 +29,6 @@ from .schedule import State
 KIND = "status"
 REST = "status-rest"
 FORMAT = 1
-
-
-@dataclass(frozen=True)
-class UnitLine:
-    uid: str
-    id: str
-    name: str
-
-
-@dataclass(frozen=True)
-class PropertyLine:
-    id: str
-    name: str
-    address: str
-    units: tuple[UnitLine, ...]
 
 
 @dataclass

@@ -9,7 +9,6 @@ last build writes the very same pages as a full build.
 from __future__ import annotations
 
 from collections import Counter
-from dataclasses import dataclass
 from datetime import date
 from typing import Any
 
@@ -20,14 +19,6 @@ from .charts import Quarter, replacement_forecast
 FORMAT = 1
 STATES = {state.value: state for state in State}
 KINDS = {kind.value: kind for kind in m.Kind}
-
-
-@dataclass(frozen=True)
-class PropertyLine:
-    """A property as the pages about the whole portfolio show it (templates read these three)."""
-    id: str
-    name: str
-    address: str
 
 
 def quarters_of(findings, portfolio: m.Portfolio, as_of: date, costs: dict[str, float]) -> list[list]:
@@ -44,7 +35,7 @@ class Totals:
 
     def __init__(self, summaries: list[dict[str, Any]], as_of: date):
         self.summaries = summaries
-        self.lines = [PropertyLine(s["id"], s["name"], s["address"]) for s in summaries]
+        self.lines = [m.PropertyLine(s["id"], s["name"], s["address"]) for s in summaries]
         self.units = sum(s["units"] for s in summaries)
         self.overdue_tasks = sum(s["overdue"][0] for s in summaries)
         self.upcoming_tasks = sum(s["upcoming"][0] for s in summaries)
