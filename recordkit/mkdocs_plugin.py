@@ -266,15 +266,16 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         update_date = get_build_date()  # (what MkDocs gives every page it makes)
         taken = set(files.src_uris)
         for page, entry in sequence:
-            parts = page.src_uri.split("/")
-            if page.src_uri.startswith("/") or any(part in ("", ".", "..") for part in parts):
-                raise PluginError(f"recordkit: refused a page path outside the site: {page.src_uri!r}")
-            if page.src_uri in taken:
-                raise PluginError(f"recordkit: {page.src_uri} is generated from the records; "
-                                  f"remove the hand-written file of that name from {config.docs_dir}")
             dests[page.src_uri] = dest = dest_of(page.src_uri, directory_urls)
-            if entry is None and self.index is not None:
-                entry = self.index.kept_entry(page.src_uri, page.key, dest)
+            if entry is None:  # (a page carried from the last build passed these checks then, in this frame)
+                parts = page.src_uri.split("/")
+                if page.src_uri.startswith("/") or any(part in ("", ".", "..") for part in parts):
+                    raise PluginError(f"recordkit: refused a page path outside the site: {page.src_uri!r}")
+                if page.src_uri in taken:
+                    raise PluginError(f"recordkit: {page.src_uri} is generated from the records; "
+                                      f"remove the hand-written file of that name from {config.docs_dir}")
+                if self.index is not None:
+                    entry = self.index.kept_entry(page.src_uri, page.key, dest)
             kept[page.src_uri] = entry
             if entry is None and page.unit is not None:
                 changed_units.add(page.unit)

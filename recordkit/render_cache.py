@@ -49,6 +49,7 @@ class RenderIndex:
         self.old_pieces: dict[str, Any] = old["pieces"] if isinstance(old.get("pieces"), dict) else {}
         self.pages: dict[str, dict] = {}
         self.pieces: dict[str, dict] = {}
+        self._pieces_read: dict[str, dict] = {}
         self.kept = self.made = 0
 
     def full_key(self, key: str) -> str:
@@ -85,7 +86,13 @@ class RenderIndex:
 
     def pieces_of(self, uri: str, dest: str) -> dict[str, tuple[str, str]]:
         """The pieces of a file made of pieces (the calendar) as the last build wrote them, read back from
-        that file, when it is still exactly as written: {name: (key, text)}."""
+        that file, when it is still exactly as written: {name: (key, text)}. Read once a build."""
+        known = self._pieces_read.get(uri)
+        if known is None:
+            known = self._pieces_read[uri] = self._read_pieces(uri, dest)
+        return known
+
+    def _read_pieces(self, uri: str, dest: str) -> dict[str, tuple[str, str]]:
         entry = self.old_pieces.get(uri)
         try:
             stat = os.stat(dest)

@@ -110,19 +110,30 @@ class PortfolioPages:
             costs=policy.costs, currency=policy.currency, totals=totals.devices,
             overdue_tasks=totals.overdue_tasks, upcoming_tasks=totals.upcoming_tasks, upcoming_days=UPCOMING_DAYS,
             last_changed=self.loaded.last_changed, files=len(self.loaded.files),
-            properties=totals.lines, row_limit=OVERVIEW_ROWS, property_rows=totals.rows(),
+            properties=totals.lines, row_limit=OVERVIEW_ROWS,
             properties_index=PROPERTIES_INDEX if len(self.order) > NAV_PROPERTIES else None)
 
     def overview_parts(self) -> dict[str, str]:
         totals = self.totals
         rows = [(kind_label(k), sum(counts.values()), counts) for k, counts in totals.by_kind.items()]
         rows.append((Markup("<b>All</b>"), sum(totals.devices.values()), totals.devices))
-        return {"kinds": self._parts.counts_table("Kind", "Devices", rows),
+        from .site import property_uri  # (site imports this module)
+
+        by_property = self._parts.property_table(
+            totals.rows(), lambda p: self._href("index.md", property_uri(p), "overdue"), overdue_only=True) \
+            if totals.overdue_tasks > OVERVIEW_ROWS else ""
+        return {"kinds": self._parts.counts_table("Kind", "Devices", rows), "by_property": by_property,
                 "overdue": totals.work_list("overdue") or "" if totals.overdue_tasks <= OVERVIEW_ROWS else "",
                 "upcoming": totals.work_list("upcoming") or "" if totals.upcoming_tasks <= OVERVIEW_ROWS else ""}
 
     def properties_index(self) -> str:
-        return self._render("properties.md.j2", PROPERTIES_INDEX, rows=self.totals.rows())
+        return self._render("properties.md.j2", PROPERTIES_INDEX)
+
+    def properties_index_parts(self) -> dict[str, str]:
+        from .site import property_uri
+
+        return {"properties": self._parts.property_table(
+            self.totals.rows(), lambda p: self._href(PROPERTIES_INDEX, property_uri(p)))}
 
     def keeping_records(self) -> str:
         """How to keep these records, with examples from the user's own ids (not the demo's)."""

@@ -274,7 +274,7 @@ class SiteBuilder(PortfolioPages):
         yield Page(SCHEMA, lambda: json.dumps(record_schema(), indent=2) + "\n", static=True)
         many = len(self.order) > NAV_PROPERTIES
         if many:
-            yield Page(PROPERTIES_INDEX, self.properties_index)
+            yield Page(PROPERTIES_INDEX, self.properties_index, parts=self.properties_index_parts)
         keys = self.keys
         for prop in self.own:
             uri = property_uri(prop)
