@@ -29,7 +29,7 @@ from .safeio import UnsafeFile, read_regular
 from .yamltree import MAX_FILE_BYTES, read_yaml
 
 KIND = "manifest"
-FORMAT = 1
+FORMAT = 2  # 2: each property's events in each file as one hash
 
 
 def save_manifest(cache: ParseCache, fileset: str, digests: dict[str, str], stats: dict[str, Any],
@@ -40,6 +40,11 @@ def save_manifest(cache: ParseCache, fileset: str, digests: dict[str, str], stat
     event_files: dict[str, set[str]] = {}
     for device, held in hashes.events.items():
         event_files.setdefault(device.split("/", 1)[0], set()).update(h.rsplit(":", 1)[0] for h in held)
+    histories: dict[str, dict[str, list]] = {}  # property -> file -> [device, hash of its events there]
+    for device, held in hashes.events.items():
+        for ref in held:
+            name, _, hashed = ref.rpartition(":")
+            histories.setdefault(device.split("/", 1)[0], {}).setdefault(name, []).append([device, hashed])
     evidence: dict[str, set[str]] = {}
     for device, refs in hashes.evidence.items():
         evidence.setdefault(device.split("/", 1)[0], set()).update(refs)
@@ -51,15 +56,24 @@ def save_manifest(cache: ParseCache, fileset: str, digests: dict[str, str], stat
         "event_files": {pid: sorted(files) for pid, files in event_files.items()},
         "heard": {p.id: sorted(heard) for p in portfolio.properties if (heard := portfolio.heard(p))},
         "outline": outline_of(portfolio.properties),
+        "histories": {pid: {name: _history_key(rows) for name, rows in by_file.items()}
+                      for pid, by_file in histories.items()},
         "evidence": {pid: sorted(refs) for pid, refs in evidence.items()}})
 
 
+def _history_key(rows: list[list[str]]) -> str:
+    """A property's events in one file as one hash: each of its devices' history there (as the parse cache
+    hashes it), so that other properties' events appended to a shared log leave it unchanged."""
+    return digest(sorted(rows))
+
+
 def file_keys(manifest: dict, root: Path | None = None) -> dict[str, str]:
-    """Each property's record files as one hash: the file holding it and those holding its devices'
-    events, by content. A property whose hash is unchanged has the same records and events. With `root`,
-    also the recordings its events keep, by size and time (a page shows what each holds)."""
+    """Each property's records as one hash: the file holding it, by content, and its devices' events in
+    each file that holds some. A property whose hash is unchanged has the same records and events. With
+    `root`, also the recordings its events keep, by size and time (a page shows what each holds)."""
     files, evidence = manifest["files"], manifest.get("evidence", {}) if root is not None else {}
-    return {pid: digest([pid, files[name][2], [[f, files[f][2]] for f in manifest["event_files"].get(pid, [])],
+    histories = manifest["histories"]
+    return {pid: digest([pid, files[name][2], sorted(histories.get(pid, {}).items()),
                          [_recording(root, ref) for ref in evidence.get(pid, [])]])
             for pid, name in manifest["properties"].items()}
 
@@ -186,11 +200,16 @@ def _refresh(root: Path, cache: ParseCache, paths: list[Path], appended: list) -
         first_new_line = data[:old_size].count(b"\n") + 1
         added += [e.record_key for e in builder.events if e.line >= first_new_line]
         digest = hashlib.blake2b(data, digest_size=16).hexdigest()
-        cache.put(name, stat, digest, builder.cache_payload(0, 0))
+        payload = builder.cache_payload(0, 0)
+        cache.put(name, stat, digest, payload)
         files[name] = [stat.st_size, stat.st_mtime_ns, digest, True]
         newest = max([newest, *(e.date for e in builder.events)])
-        for pid in {e.device.split("/", 1)[0] for e in builder.events}:
+        by_property: dict[str, list] = {}
+        for device, hashed in payload["digests"]["events"].items():
+            by_property.setdefault(device.split("/", 1)[0], []).append([device, hashed])
+        for pid, rows in by_property.items():
             manifest["event_files"][pid] = sorted({*manifest["event_files"].get(pid, []), name})
+            manifest["histories"].setdefault(pid, {})[name] = _history_key(rows)
         for event in builder.events:
             if event.evidence:
                 pid = event.device.split("/", 1)[0]

@@ -254,12 +254,23 @@ def test_after_a_logged_test_only_that_property_is_read(tmp_path, monkeypatch):
     loaded = load_records(records, AS_OF)
     props = loaded.portfolio.properties
     assert len(props) >= 4
-    device = next(d.uid for u in props[2].units for d in u.devices)
-    for day, result in (("2026-11-20", "fail"), ("2026-11-21", "pass")):
+    from recordkit import quickbuild
+
+    loads: list[set] = []
+    original = quickbuild.quick_load
+    monkeypatch.setattr(quickbuild, "quick_load", lambda root, wanted, *a, **k: loads.append(set(wanted))
+                        or original(root, wanted, *a, **k))
+    # Both properties' tests go to the one shared log of the year (log/2026.yaml): each build after a
+    # test still reads only the property tested.
+    for n, (prop, day, result) in enumerate(((props[2], "2026-11-20", "fail"), (props[3], "2026-11-21", "pass"),
+                                             (props[2], "2026-11-22", "pass"))):
+        device = next(d.uid for u in prop.units for d in u.devices)
         cli(records, "log", device, "test", "--result", result, "--date", day, "--again")
         with monkeypatch.context() as patch:
             def refused(*args, **kwargs):
                 raise AssertionError("a whole load")
             patch.setattr(mkdocs_plugin, "load_records", refused)
             build_site(records, AS_OF, site)
-        assert_same_tree(site, build_site(records, AS_OF, tmp_path / f"full-{day}"))
+        assert loads[-1] == {prop.id}
+        assert_same_tree(site, build_site(records, AS_OF, tmp_path / f"full-{n}"))
+    assert (records / "log" / "2026.yaml").is_file()
