@@ -173,7 +173,7 @@ def exit_unless_usable(loaded: Loaded, records_dir: Path, refusal: str = "", nee
         sys.exit(EXIT_ERRORS)
     if need_records and not loaded.portfolio.properties:
         click.echo(f"{records_dir}: no property records here yet. Start with "
-                   f"`recordkit init {records_dir}`, then `recordkit add unit|room|device`.", err=True)
+                   f"`recordkit init -r {records_dir}`, then `recordkit add unit|room|device`.", err=True)
         if refusal:
             click.echo(refusal, err=True)
         sys.exit(EXIT_ERRORS)
@@ -185,7 +185,7 @@ def folder_hint(records_dir: Path) -> str:
     if any(here.glob("*.yaml")) and (here / "policy.yaml").is_file():
         return f"The current folder looks like a records folder: run with `-r .` (or set {RECORDS_ENV})."
     return (f"Give the records folder with -r DIR (or set {RECORDS_ENV}), or start one with "
-            f"`recordkit init {records_dir}`.")
+            f"`recordkit init -r {records_dir}`.")
 
 
 def emit(text: str, out: Path | None) -> None:
