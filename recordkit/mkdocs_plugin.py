@@ -150,7 +150,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         self.old_index: dict | None = None  # what the last build into the site folder left
         self.update: Update | None = None  # when only some properties are loaded (see quickbuild)
         self.builder: SiteBuilder | None = None
-        self.inputs: dict | None = None  # each property's files as one hash, for the next build
+        self.inputs: dict | None = None  # each property's records as one hash, for the next build
         self.frame = ""
         self.groups: dict[str, list[str]] = {}
         self.search_entries: dict[str, list] = {}  # this build's search entries of each page it made

@@ -1,12 +1,12 @@
 """A build after a few properties' records changed (a logged test, say) reads only those properties.
 
 A build saves, beside its render index (see `render_cache`), what the next one needs to leave the other
-properties alone: each property's record files as one hash (`quickload.file_keys`), its summary (what the
+properties alone: each property's records as one hash (`quickload.file_keys`), its summary (what the
 pages about the whole portfolio need of it, see `render.summaries`) and the pages it has, with the order
 of the properties and the site's key (recordkit's code, the policy, the as-of date, the site settings).
 
 The next build into that folder, when every record file is as the last clean load left them (the
-manifest of `quickload` says so; `log` keeps it so), compares the hashes: the properties whose files
+manifest of `quickload` says so; `log` keeps it so), compares the hashes: the properties whose records
 changed, with every property linked to one of them by a listening node (its findings and pages may
 depend on the other's records), are loaded (`quick_load`), evaluated and their pages made; the pages about
 the whole portfolio are made from their new summaries and the others' kept ones; every other page is
@@ -33,11 +33,11 @@ class Update:
     others: dict[str, dict]          # the other properties' summaries, from the last build
     groups: dict[str, list[str]]     # the other properties' pages, from the last build
     order: list[str]                 # every property, in order
-    inputs: dict[str, str]           # every property's record files as one hash, now
+    inputs: dict[str, str]           # every property's records as one hash, now
 
 
 def inputs_now(root: Path, today: date) -> dict[str, Any] | None:
-    """Each property's files as one hash and the properties' order, when the manifest is current."""
+    """Each property's records as one hash and the properties' order, when the manifest is current."""
     try:
         current = current_manifest(root, ParseCache(root), today)
         if current is None or "outline" not in current[0]:
