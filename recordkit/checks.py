@@ -78,6 +78,19 @@ def urgency(finding: Finding) -> tuple:
     return finding.state.rank, finding.due or date.min, TASK_ORDER.get(finding.task, 9)
 
 
+def worst_state(findings: Iterable[Finding]) -> State | None:
+    """A device's state: that of its most pressing finding (None: nothing to do)."""
+    return min((f.state for f in findings), key=lambda s: s.rank, default=None)
+
+
+def by_property(findings: Iterable[Finding]) -> dict[str, list[Finding]]:
+    """Findings grouped by the property they are about, in their order."""
+    grouped: dict[str, list[Finding]] = {}
+    for finding in findings:
+        grouped.setdefault(finding.unit.split("/", 1)[0], []).append(finding)
+    return grouped
+
+
 def last_event(events: Iterable[m.Event], *actions: m.Action) -> m.Event | None:
     last = None
     for event in events:

@@ -28,6 +28,16 @@ def evidence_path(records_dir: Path, reference: str) -> Path:
     return records_dir / EVIDENCE_DIR / (reference.split(":", 1)[1] + ".wav")
 
 
+def recording_state(records_dir: Path, reference: str) -> list:
+    """A kept recording as a page shows it: there or not, and which file (size and time), for the keys
+    that tell whether a page must be made again."""
+    try:
+        info = os.stat(evidence_path(records_dir, reference))
+        return [reference, info.st_size, info.st_mtime_ns]
+    except OSError:
+        return [reference, None]
+
+
 def keep(records_dir: Path, recording: Path) -> str:
     """Copy a recording into records/evidence/<sha256>.wav (once, fsynced; a file already there is kept
     only if its content really has that hash); returns 'sha256:<hex>'."""

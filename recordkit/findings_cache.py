@@ -14,9 +14,10 @@ from datetime import date
 from pathlib import Path
 from typing import Any
 
+from . import memo
 from . import model as m
 from .cache import ParseCache
-from .checks import Finding, evaluate
+from .checks import Finding, by_property, evaluate
 from .errors import Source
 from .loader import Digests, Loaded
 from .hashes import code_digest, digest, policy_digest
@@ -64,10 +65,6 @@ def decode(data: Any) -> list[Finding]:
     return found
 
 
-# The findings this process already has, by property, for the next build of the same folder (`serve`):
-# findings are immutable, and a key names all they are made of.
-_in_memory: dict[str, Any] = {}
-
 KINDS = {kind.value: kind for kind in m.Kind}  # (a lookup is 5x quicker than Kind(value) a finding)
 STATES = {state.value: state for state in State}
 
@@ -81,13 +78,10 @@ def cached_evaluate(loaded: Loaded, policy: Policy, as_of: date) -> list[Finding
     base = digest([code_digest(), FORMAT, policy_digest(policy), as_of, loaded.root])
     kept: dict[str, list[Finding]] = {}
     keys: dict[str, str] = {}
-    folder = str(Path(loaded.root).resolve())
-    if _in_memory.get("folder") != folder:
-        _in_memory.clear()
-        _in_memory["folder"] = folder
+    in_memory = memo.store(str(Path(loaded.root).resolve()), KIND)  # (what this process has: `serve`)
     for prop in portfolio.properties:
         keys[prop.id] = key = property_key(digests, portfolio, prop, base)
-        known = _in_memory.get(prop.id)
+        known = in_memory.get(prop.id)
         if known is not None and known[0] == key:
             kept[prop.id] = known[1]
             continue
@@ -95,7 +89,7 @@ def cached_evaluate(loaded: Loaded, policy: Policy, as_of: date) -> list[Finding
         if isinstance(note, dict) and note.get("key") == key:
             try:
                 kept[prop.id] = decode(note["findings"])
-                _in_memory[prop.id] = key, kept[prop.id]
+                in_memory[prop.id] = key, kept[prop.id]
             except (ValueError, KeyError, IndexError, TypeError):
                 pass
     stale = [p.id for p in portfolio.properties if p.id not in kept]
@@ -103,12 +97,11 @@ def cached_evaluate(loaded: Loaded, policy: Policy, as_of: date) -> list[Finding
         return [f for p in portfolio.properties for f in kept[p.id]]
     made: dict[str, list[Finding]] = {}
     if len(stale) * 2 > len(portfolio.properties):  # most changed: one pass over everything is quicker
-        for finding in evaluate(portfolio, policy, as_of):
-            made.setdefault(finding.unit.split("/", 1)[0], []).append(finding)
+        made = by_property(evaluate(portfolio, policy, as_of))
     else:
         for pid in stale:
             made[pid] = [f for f in evaluate(portfolio.only({pid}), policy, as_of) if f.unit.split("/", 1)[0] == pid]
     for pid in stale:
         cache.put_note(KIND, pid, {"key": keys[pid], "findings": encode(made.get(pid, []))})
-        _in_memory[pid] = keys[pid], made.get(pid, [])
+        in_memory[pid] = keys[pid], made.get(pid, [])
     return [f for p in portfolio.properties for f in (kept[p.id] if p.id in kept else made.get(p.id, []))]

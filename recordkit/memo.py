@@ -4,8 +4,9 @@
 times: the files that did not change need not be read from the parse cache and decoded again. Records are
 immutable (frozen dataclasses and tuples), so the same objects serve every load. A file is taken from here
 only while it is a regular file of the same size and modification time as when it was read, and only when
-that time was old enough to be trusted then (see `cache.RACY_SECONDS`); one folder is remembered at a time
-(the last one loaded), so memory stays what one load of it holds.
+that time was old enough to be trusted then (see `cache.RACY_SECONDS`). Other results kept by a key
+(`findings_cache`) use a store here too. One folder is remembered at a time (the last one loaded), so
+memory stays what one load of it holds.
 """
 from __future__ import annotations
 
@@ -30,31 +31,36 @@ class Decoded:
 
 
 _folder: str | None = None
-_files: dict[str, Decoded] = {}
+_stores: dict[str, dict] = {}
+
+
+def store(folder: str, kind: str) -> dict:
+    """This process's store of `kind` for the records folder (resolved); every store is emptied when
+    another folder is loaded."""
+    global _folder
+    if folder != _folder:
+        _folder = folder
+        _stores.clear()
+    return _stores.setdefault(kind, {})
 
 
 def recall(folder: str, shown: str, stat: os.stat_result) -> Decoded | None:
     """The file as this process last read it, if it is certainly unchanged since."""
-    if folder != _folder:
-        return None
-    known = _files.get(shown)
+    known = store(folder, "files").get(shown)
     if known is None or not S_ISREG(stat.st_mode) or (known.size, known.mtime_ns) != (stat.st_size, stat.st_mtime_ns):
         return None
     return known
 
 
 def remember(folder: str, shown: str, stat: os.stat_result, decoded: Decoded) -> None:
-    global _folder
-    if folder != _folder:
-        _folder = folder
-        _files.clear()
+    files = store(folder, "files")
     if time.time() - stat.st_mtime > RACY_SECONDS:  # else it could change again unseen: read it next time
-        _files[shown] = decoded
+        files[shown] = decoded
     else:
-        _files.pop(shown, None)
+        files.pop(shown, None)
 
 
 def forget() -> None:
     global _folder
     _folder = None
-    _files.clear()
+    _stores.clear()

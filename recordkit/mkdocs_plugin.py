@@ -254,6 +254,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         sequence = self._sequence(config)
         if sequence is None:  # the last build's kept pages do not fit this one: everything loaded after all
             self._prepare(config, load_records(self.records_dir, self.as_of, today=date.today()))
+            # afresh: what the failed attempt carried over is not this build's
             self.index = RenderIndex(self.records_dir, Path(config.site_dir), self.frame, self.old_index)
             sequence = self._sequence(config)
         self.made_files, self.left_out = [], []
@@ -441,7 +442,7 @@ class RecordkitPlugin(BasePlugin[RecordkitConfig]):
         """Let the records go: `mkdocs serve` loads them afresh on the next build."""
         self.pages = {}
         self.made_files, self.left_out = [], []
-        self.files = self.env = self.nav = self.builder = self.update = self.old_index = None
+        self.files = self.env = self.nav = self.builder = self.update = self.old_index = self.inputs = None
 
     def on_build_error(self, *, error: Exception) -> None:
         self.bar.close()

@@ -37,13 +37,14 @@ class Update:
 
 
 def inputs_now(root: Path, today: date) -> dict[str, Any] | None:
-    """Each property's records as one hash and the properties' order, when the manifest is current."""
+    """Each property's records as one hash, the properties' order and their listening nodes' links, with
+    what `current_manifest` gave, when the manifest is current."""
     try:
         current = current_manifest(root, ParseCache(root), today)
         if current is None or "outline" not in current[0]:
             return None
         return {"inputs": file_keys(current[0], root), "order": list(current[0]["outline"]),
-                "links": current[0]["heard"]}
+                "links": current[0]["heard"], "current": current}
     except (OSError, KeyError, TypeError, ValueError, IndexError):
         return None
 
@@ -86,7 +87,7 @@ def _plan(root: Path, last: dict[str, Any] | None, as_of: date, today: date) -> 
         return None  # most changed: one whole load is quicker
     others = {pid: last["summaries"][pid] for pid in order if pid not in wanted}
     groups = {pid: list(last["groups"][pid]) for pid in others}
-    loaded = quick_load(root, wanted, as_of, today, with_digests=True)
+    loaded = quick_load(root, wanted, as_of, today, with_digests=True, current=now["current"])
     if loaded is None or {p.id for p in loaded.portfolio.properties} != wanted:
         return None
     return Update(loaded, others, groups, order, inputs)

@@ -2,8 +2,9 @@
 them: `log` and `status --property` then read a few cache entries, not the whole portfolio.
 
 After every clean load with the cache, the loader saves a manifest beside the parse cache: each record
-file's size, modification time and content hash, which file holds each property, which files hold
-events of its devices, and which other properties its listening nodes hear. `quick_load` lists the
+file's size, modification time and content hash, which file holds each property, the hash of its
+devices' events in each file that holds some (so which files those are), and which other properties
+its listening nodes hear. `quick_load` lists the
 record files and compares each with the manifest (a file changed too recently for its time to be
 trusted is compared by content, as the parse cache does); on any difference, or when the last load was
 not clean, it returns None and the command loads everything as before. The result is marked `partial`.
@@ -22,6 +23,7 @@ from . import model as m
 from .cache import RACY_SECONDS, ParseCache
 from .hashes import digest
 from .errors import Problems
+from .evidence import recording_state
 from .loader import Digests, Loaded, _Builder
 from .recordfiles import CSV_SUFFIX, POLICY_FILE, record_files
 from .rules import Policy, apply_policy_file
@@ -29,7 +31,7 @@ from .safeio import UnsafeFile, read_regular
 from .yamltree import MAX_FILE_BYTES, read_yaml
 
 KIND = "manifest"
-FORMAT = 2  # 2: each property's events in each file as one hash
+FORMAT = 3  # 2: each property's events in each file as one hash; 3: which files hold them, from those
 
 
 def save_manifest(cache: ParseCache, fileset: str, digests: dict[str, str], stats: dict[str, Any],
@@ -37,9 +39,6 @@ def save_manifest(cache: ParseCache, fileset: str, digests: dict[str, str], stat
     from .status_cache import outline_of  # (it imports this module)
 
     now = time.time()
-    event_files: dict[str, set[str]] = {}
-    for device, held in hashes.events.items():
-        event_files.setdefault(device.split("/", 1)[0], set()).update(h.rsplit(":", 1)[0] for h in held)
     histories: dict[str, dict[str, list]] = {}  # property -> file -> [device, hash of its events there]
     for device, held in hashes.events.items():
         for ref in held:
@@ -53,7 +52,6 @@ def save_manifest(cache: ParseCache, fileset: str, digests: dict[str, str], stat
         "files": {name: [stats[name].st_size, stats[name].st_mtime_ns, digest,
                          now - stats[name].st_mtime <= RACY_SECONDS] for name, digest in digests.items()},
         "properties": {p.id: inside_of[p.source.path] for p in portfolio.properties},
-        "event_files": {pid: sorted(files) for pid, files in event_files.items()},
         "heard": {p.id: sorted(heard) for p in portfolio.properties if (heard := portfolio.heard(p))},
         "outline": outline_of(portfolio.properties),
         "histories": {pid: {name: _history_key(rows) for name, rows in by_file.items()}
@@ -74,28 +72,19 @@ def file_keys(manifest: dict, root: Path | None = None) -> dict[str, str]:
     files, evidence = manifest["files"], manifest.get("evidence", {}) if root is not None else {}
     histories = manifest["histories"]
     return {pid: digest([pid, files[name][2], sorted(histories.get(pid, {}).items()),
-                         [_recording(root, ref) for ref in evidence.get(pid, [])]])
+                         [recording_state(root, ref) for ref in evidence.get(pid, [])]])
             for pid, name in manifest["properties"].items()}
 
 
-def _recording(root: Path | None, reference: str) -> list:
-    from .evidence import evidence_path
-
-    try:
-        info = os.stat(evidence_path(root, reference))
-        return [reference, info.st_size, info.st_mtime_ns]
-    except OSError:
-        return [reference, None]
-
-
 def quick_load(root: Path, property_ids: set[str], as_of: date, today: date | None = None,
-               with_digests: bool = False) -> Loaded | None:
+               with_digests: bool = False, current: tuple | None = None) -> Loaded | None:
     """Just these properties (and those their nodes hear), with their devices' events; None when the
     records are not exactly as the last clean load left them, or a property is unknown. `with_digests`:
-    with the parse cache's hashes of what was loaded (`loader.Digests`), as a whole load gives them."""
+    with the parse cache's hashes of what was loaded (`loader.Digests`), as a whole load gives them.
+    `current`: what `current_manifest` just gave the caller (not worked out twice)."""
     cache = ParseCache(root)
     try:
-        return _quick(root, cache, property_ids, as_of, max(today or as_of, as_of), with_digests)
+        return _quick(root, cache, property_ids, as_of, max(today or as_of, as_of), with_digests, current)
     except (OSError, UnsafeFile, KeyError, TypeError, ValueError, AttributeError):
         return None
 
@@ -126,8 +115,8 @@ def current_manifest(root: Path, cache: ParseCache, today: date) -> tuple[dict, 
 
 
 def _quick(root: Path, cache: ParseCache, property_ids: set[str], as_of: date, today: date,
-           with_digests: bool = False) -> Loaded | None:
-    current = current_manifest(root, cache, today)
+           with_digests: bool = False, current: tuple | None = None) -> Loaded | None:
+    current = current or current_manifest(root, cache, today)
     if current is None:
         return None
     manifest, named, newest = current
@@ -137,7 +126,7 @@ def _quick(root: Path, cache: ParseCache, property_ids: set[str], as_of: date, t
         return None
     wanted |= {pid for own in property_ids for pid in manifest["heard"].get(own, [])}
     needed = {manifest["properties"][pid] for pid in wanted}
-    needed |= {name for pid in wanted for name in manifest["event_files"].get(pid, [])}
+    needed |= {name for pid in wanted for name in manifest["histories"].get(pid, {})}  # (its event files)
     builder, policy = _Builder(problems), Policy()
     hashes = Digests() if with_digests else None
     for name, path in named.items():  # in the loader's order, so events keep their order
@@ -208,7 +197,6 @@ def _refresh(root: Path, cache: ParseCache, paths: list[Path], appended: list) -
         for device, hashed in payload["digests"]["events"].items():
             by_property.setdefault(device.split("/", 1)[0], []).append([device, hashed])
         for pid, rows in by_property.items():
-            manifest["event_files"][pid] = sorted({*manifest["event_files"].get(pid, []), name})
             manifest["histories"].setdefault(pid, {})[name] = _history_key(rows)
         for event in builder.events:
             if event.evidence:

@@ -19,7 +19,7 @@ from pathlib import Path
 
 from .cache import ParseCache
 from .model import PropertyLine, UnitLine
-from .checks import Finding, evaluate
+from .checks import Finding, by_property, evaluate
 from .findings_cache import decode, encode
 from .hashes import code_digest, digest
 from .quickload import current_manifest, file_keys, quick_load
@@ -68,11 +68,9 @@ def remember(root: Path, findings: list[Finding], as_of: date, today: date) -> N
         keys = _keys(current[0], root, as_of)
     except (OSError, KeyError, TypeError, ValueError, IndexError):
         return
-    by_property: dict[str, list[Finding]] = {pid: [] for pid in keys}
-    for finding in findings:
-        by_property.setdefault(finding.unit.split("/", 1)[0], []).append(finding)
+    grouped = by_property(findings)
     for pid, key in keys.items():
-        _put(cache, pid, key, by_property[pid])
+        _put(cache, pid, key, grouped.get(pid, []))
 
 
 def _put(cache: ParseCache, pid: str, key: str, findings: list[Finding]) -> None:
@@ -128,11 +126,10 @@ def _quick_status(root: Path, cache: ParseCache, as_of: date, today: date, every
         return None
     made: dict[str, list[Finding]] = {}
     if stale:
-        loaded = quick_load(root, stale, as_of, today)
+        loaded = quick_load(root, stale, as_of, today, current=current)
         if loaded is None:
             return None
-        for finding in evaluate(loaded.portfolio.only(stale), loaded.policy, as_of):
-            made.setdefault(finding.unit.split("/", 1)[0], []).append(finding)
+        made = by_property(evaluate(loaded.portfolio.only(stale), loaded.policy, as_of))
         for pid in stale:
             _put(cache, pid, keys[pid], made.get(pid, []))
     findings: list[Finding] = []

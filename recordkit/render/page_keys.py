@@ -10,13 +10,12 @@ always made; the calendar is made of one piece a unit, keyed like the unit's pag
 """
 from __future__ import annotations
 
-import os
 from datetime import date
 from pathlib import Path
 
 from .. import model as m
 from ..checks import Finding
-from ..evidence import evidence_path
+from ..evidence import recording_state
 from ..hashes import code_digest, digest, joined_digest, policy_digest
 from ..loader import Digests
 from ..rules import Policy
@@ -43,15 +42,7 @@ class PageKeys:
         recordings = self.digests.evidence.get(device.uid)
         return [device.uid, *self.digests.events.get(device.uid, ()), "findings",
                 *(_finding_text(f) for f in self.by_device.get(device.uid, ())),
-                *([str(self._recording(ref)) for ref in recordings] if recordings else ()), "end"]
-
-    def _recording(self, reference: str) -> list:
-        """A kept recording as its page shows it: there or not, and which file (size and time)."""
-        try:
-            info = os.stat(evidence_path(self.root, reference))
-            return [reference, info.st_size, info.st_mtime_ns]
-        except OSError:
-            return [reference, None]
+                *([str(recording_state(self.root, ref)) for ref in recordings] if recordings else ()), "end"]
 
     def unit_inputs(self, prop: m.Property, unit: m.Unit) -> str:
         known = self._units.get(unit.uid)  # by uid: hashing the records themselves is slow

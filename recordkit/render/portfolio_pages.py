@@ -11,7 +11,7 @@ from typing import Any
 from markupsafe import Markup
 
 from .. import model as m
-from ..checks import TASK_ORDER, Finding
+from ..checks import TASK_ORDER, Finding, by_property, worst_state
 from ..exports import calendar_text
 from ..schedule import State
 from .charts import forecast_svg, yearly_costs
@@ -39,10 +39,7 @@ class PortfolioPages:
 
     @functools.cached_property
     def _findings_of(self) -> dict[str, list[Finding]]:
-        by_property: dict[str, list[Finding]] = {}
-        for finding in self.findings:
-            by_property.setdefault(finding.unit.split("/", 1)[0], []).append(finding)
-        return by_property
+        return by_property(self.findings)
 
     @functools.cached_property
     def _work(self) -> tuple[list[Finding], list[Finding]]:
@@ -63,9 +60,7 @@ class PortfolioPages:
             for device in unit.devices:
                 retired = self.portfolio.retired_on(device.uid)
                 if retired is None or retired > self.as_of:
-                    state = min((f.state for f in self.by_device.get(device.uid, ())), key=lambda s: s.rank,
-                                default=None)
-                    by_kind.setdefault(device.kind, Counter())[state] += 1
+                    by_kind.setdefault(device.kind, Counter())[worst_state(self.by_device.get(device.uid, ()))] += 1
         overdue, upcoming = ([f for f in work if f.unit.split("/", 1)[0] == prop.id] for work in self._work)
         first = next(((d.uid, u.uid) for u in prop.units for d in u.devices), None) \
             or (None, prop.units[0].uid if prop.units else None)

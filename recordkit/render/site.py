@@ -20,7 +20,7 @@ from markupsafe import Markup
 
 from .. import model as m
 from ..cautions import CAUTIONS, SHORT
-from ..checks import Finding, urgency
+from ..checks import Finding, by_property, urgency, worst_state
 from ..loader import Loaded
 from ..nodes import NodeReport, node_report
 from .charts import envelope_svg, monthly_grid_svg, position_cells
@@ -146,11 +146,6 @@ class DeviceView:
     @property
     def replacement(self) -> Finding | None:
         return next((f for f in self.findings if f.task == "replace"), None)
-
-
-def worst_state(findings: list[Finding]) -> State | None:
-    """A device's state: that of its most pressing finding (None: nothing to do)."""
-    return min((f.state for f in findings), key=lambda s: s.rank, default=None)
 
 
 class DeviceViews(dict):
@@ -320,10 +315,7 @@ class SiteBuilder(PortfolioPages):
 
     @functools.cached_property
     def _overdue_by_property(self) -> dict[str, list[Finding]]:
-        by_property: dict[str, list[Finding]] = {}
-        for finding in self._work[0]:  # the overview's overdue list, longest overdue first
-            by_property.setdefault(finding.unit.split("/", 1)[0], []).append(finding)
-        return by_property
+        return by_property(self._work[0])  # the overview's overdue list, longest overdue first
 
     def property_page(self, prop: m.Property) -> str:
         return self._render("property.md.j2", property_uri(prop), prop=prop)
